@@ -1,0 +1,62 @@
+"""Compilation policy: generated kernel source goes to an on-disk cache keyed by its hash.
+
+Numba's own cache (``cache=True``) keeps the machine code beside each generated
+file, so a second run of the same system structure loads it instead of
+compiling. The key hashes the generated source together with the numba and
+emsim versions; kernel sources of every component are part of the generated
+text's hash input (see :func:`structure_key`).
+"""
+from __future__ import annotations
+
+import hashlib
+import importlib.util
+import os
+import sys
+from pathlib import Path
+from types import ModuleType
+
+import numba
+
+from .. import __version__
+
+_loaded: dict[str, ModuleType] = {}
+
+
+def cache_dir() -> Path:
+    """Folder for generated kernels: ``$EMSIM_CACHE_DIR`` or ``~/.cache/emsim``."""
+    root = os.environ.get("EMSIM_CACHE_DIR") or os.path.join(os.path.expanduser("~"), ".cache", "emsim")
+    path = Path(root) / f"numba-{numba.__version__}"
+    path.mkdir(parents=True, exist_ok=True)
+    return path
+
+
+def structure_key(*parts: str) -> str:
+    """A short stable hash of the texts that define a compiled system."""
+    digest = hashlib.sha256()
+    for part in (__version__, numba.__version__, *parts):
+        digest.update(part.encode())
+        digest.update(b"\0")
+    return digest.hexdigest()[:20]
+
+
+def load_generated(prefix: str, source: str, extra_key: str = "") -> ModuleType:
+    """Write ``source`` once under its hash and import it as a real module.
+
+    The module is registered in ``sys.modules`` because numba's cache re-imports
+    the defining module by name when it loads machine code.
+    """
+    key = structure_key(source, extra_key)
+    name = f"emsim_generated_{prefix}_{key}"
+    if name in _loaded:
+        return _loaded[name]
+    path = cache_dir() / f"{name}.py"
+    if not path.exists() or path.read_text() != source:
+        tmp = path.with_suffix(f".tmp{os.getpid()}")
+        tmp.write_text(source)
+        os.replace(tmp, path)  # atomic: a concurrent run never imports half a file
+    spec = importlib.util.spec_from_file_location(name, path)
+    module = importlib.util.module_from_spec(spec)
+    sys.modules[name] = module
+    spec.loader.exec_module(module)
+    _loaded[name] = module
+    return module
