@@ -163,6 +163,15 @@ class Component:
             parts += [np.array([float(arr.size)]), arr]
         return np.concatenate(parts) if parts else np.zeros(0)
 
+    def scalar(self, name: str) -> float:
+        """SI value of a parameter or derived value by name."""
+        return self.values[name] if name in self.values else self.derived_values[name]
+
+    def scalar_index(self, name: str) -> int:
+        """Position of a parameter or derived value in :meth:`parameter_vector`."""
+        names = [p.name for p in self.params] + list(self.derived)
+        return names.index(name)
+
     def port(self, name: str) -> Port:
         for p in self.ports:
             if p.name == name:
@@ -192,8 +201,9 @@ def _validate_class(cls) -> None:
         check_si(decl.unit, owner=label, name=decl.name)
     pnames = {p.name for p in cls.params}
     for port in cls.ports:
-        if port.capacity is not None and port.capacity not in pnames:
-            raise PluginError(f"{label}: port '{port.name}' lends capacity '{port.capacity}', which is not a parameter")
+        if port.capacity is not None and port.capacity not in pnames | set(cls.derived):
+            raise PluginError(f"{label}: port '{port.name}' lends capacity '{port.capacity}', "
+                              "which is neither a parameter nor a derived value")
     ports = {p.name: p for p in cls.ports}
     for c in cls.couplings:
         for pn in (c.port_a, c.port_b):

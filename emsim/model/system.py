@@ -24,6 +24,7 @@ class System:
         self.links: list[tuple[list[str], str | None]] = []   # physical joins
         self.signal_links: list[tuple[str, str]] = []        # (source "c.signal", target "c.input")
         self.nominal_across: dict[str, float] = {}
+        self.initial_across: dict[str, object] = {}
 
     def add(self, *components: Component) -> "System":
         """Add component instances; names must be unique."""
@@ -91,6 +92,15 @@ class System:
             raise WiringError(f"system '{self.name}': domain mismatch joining {detail}; "
                               "only ports of one domain can share a node")
         self.links.append((list(refs), name))
+        return self
+
+    def set_initial(self, node: str, value) -> "System":
+        """Initial across value of a node, by node name or ``"component.port"``.
+
+        For a rotational port inside a rigid group, the group speed is set so that this
+        port turns at ``value``. Units are accepted (``"300 rpm"``, ``"12 V"``).
+        """
+        self.initial_across[node] = value
         return self
 
     def set_nominal(self, node: str, value: float) -> "System":
