@@ -1,0 +1,1 @@
+"""Time integrators for assembled problems (see :mod:`emsim.solvers.base` for the contract)."""

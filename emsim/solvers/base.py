@@ -1,0 +1,82 @@
+"""What every solver of emsim promises.
+
+A solver turns a :class:`emsim.assembly.problem.Problem` into output rows and an
+event log. The contract, which every subclass of :class:`Solver` keeps:
+
+1. ``run(problem, t_end, *, out_dt, sink)`` integrates from ``problem.t0`` to
+   ``t_end`` (inclusive) and returns a ``dict`` of integer statistics (at least
+   ``steps``, ``rejected``, ``rhs_evals``, ``jacobians``, ``factorizations``,
+   ``newton_iterations``, ``time_events``, ``state_events``).
+2. Output rows are taken at ``problem.t0 + k * out_dt`` for ``k = 0, 1, ...``
+   up to and including ``t_end``; the first row is at ``t0``. Each row holds the
+   ``problem.n_record`` values that the generated ``system_record`` fills.
+3. ``sink.rows(t, data)`` receives rows in time order in batches: ``t`` of shape
+   ``(k,)``, ``data`` of shape ``(k, problem.n_record)``. The arrays may be
+   reused by the solver after the call returns: a sink that keeps them copies.
+4. ``sink.events(t, component, kind, index)`` receives the event log in time
+   order in batches: ``component`` is the index into ``problem.component_names``,
+   ``kind`` is 1 for a time event and 2 for a state event, ``index`` is the state
+   event index (into ``problem.event_owner``) or -1 for a time event. The
+   batches of rows and of events each stay in time order; rows of a batch are
+   delivered before the events of the same batch.
+5. At one instant state events are applied first, in increasing event index,
+   then the time events due at that instant. A row at exactly an event instant
+   shows the state after the events.
+6. Any failure raises :class:`emsim.errors.SolverError` whose message names the
+   time, the kind of failure, the state vector by ``problem.state_names`` and,
+   where one can be identified, the owning component or node.
+7. ``settings()`` returns the solver's options as a plain ``dict`` (JSON-able
+   values) for result metadata; ``name`` is a short method name.
+8. A solver does not modify the ``problem`` it is given.
+"""
+from __future__ import annotations
+
+from abc import ABC, abstractmethod
+
+
+class Solver(ABC):
+    """Abstract base of the time integrators; see the module docstring for the contract."""
+
+    name: str = "solver"
+
+    @abstractmethod
+    def run(self, problem, t_end: float, *, out_dt: float, sink) -> dict:
+        """Integrate ``problem`` to ``t_end`` feeding ``sink``; return statistics (contract 1-6)."""
+
+    @abstractmethod
+    def settings(self) -> dict:
+        """The solver options as a plain dict (contract 7)."""
+
+
+class MemorySink:
+    """A sink that keeps everything in memory (tests, small runs).
+
+    After the run, :meth:`arrays` returns ``(t, data)`` and :meth:`event_arrays`
+    returns ``(t, component, kind, index)`` as concatenated numpy arrays.
+    """
+
+    def __init__(self):
+        self._t, self._data = [], []
+        self._ev = [], [], [], []
+
+    def rows(self, t, data):
+        self._t.append(t.copy())
+        self._data.append(data.copy())
+
+    def events(self, t, component, kind, index):
+        for store, a in zip(self._ev, (t, component, kind, index)):
+            store.append(a.copy())
+
+    def arrays(self):
+        import numpy as np
+
+        if not self._t:
+            return np.empty(0), np.empty((0, 0))
+        return np.concatenate(self._t), np.concatenate(self._data)
+
+    def event_arrays(self):
+        import numpy as np
+
+        if not self._ev[0]:
+            return np.empty(0), np.empty(0, np.int64), np.empty(0, np.int64), np.empty(0, np.int64)
+        return tuple(np.concatenate(s) for s in self._ev)

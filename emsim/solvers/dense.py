@@ -1,0 +1,107 @@
+"""Small dense linear algebra for the compiled integrator (numba, arrays only).
+
+Every function works on the leading ``n`` rows/columns of the arrays it is
+given, so the integrator can keep fixed-size work arrays and never allocate in
+its step loop. The LU routines are written once and numba compiles a real and a
+complex specialisation from the same source (the integrator factors one real
+and one complex iteration matrix per step size).
+
+All functions are ``njit(cache=True)``; the integrator kernel, which is
+compiled once per system inside a generated module, imports them from here.
+"""
+from __future__ import annotations
+
+import math
+
+from numba import njit
+
+
+@njit(cache=True)
+def lu_factor(a, piv, n):
+    """LU factorisation with partial (row) pivoting of ``a[:n, :n]``, in place.
+
+    On return the strict lower triangle holds the multipliers (unit diagonal
+    implied), the upper triangle holds U and ``piv[k]`` is the row swapped with
+    row ``k`` at elimination step ``k``. Works for float64 and complex128.
+
+    Returns 0 on success, else ``1 + k`` for the first column ``k`` whose pivot
+    is exactly zero (the factorisation still completes; solving is meaningless).
+    """
+    info = 0
+    for k in range(n):
+        p = k
+        amax = abs(a[k, k])
+        for i in range(k + 1, n):
+            v = abs(a[i, k])
+            if v > amax:
+                amax = v
+                p = i
+        piv[k] = p
+        if amax == 0.0:
+            if info == 0:
+                info = k + 1
+            continue
+        if p != k:
+            for j in range(n):
+                tmp = a[k, j]
+                a[k, j] = a[p, j]
+                a[p, j] = tmp
+        inv = 1.0 / a[k, k]
+        for i in range(k + 1, n):
+            lik = a[i, k] * inv
+            a[i, k] = lik
+            if lik != 0.0:
+                for j in range(k + 1, n):
+                    a[i, j] -= lik * a[k, j]
+    return info
+
+
+@njit(cache=True)
+def lu_solve(lu, piv, b, n):
+    """Solve ``A x = b`` in place in ``b[:n]`` with the factors from :func:`lu_factor`."""
+    for k in range(n):
+        p = piv[k]
+        if p != k:
+            tmp = b[k]
+            b[k] = b[p]
+            b[p] = tmp
+    for i in range(1, n):
+        s = b[i]
+        for j in range(i):
+            s -= lu[i, j] * b[j]
+        b[i] = s
+    for i in range(n - 1, -1, -1):
+        s = b[i]
+        for j in range(i + 1, n):
+            s -= lu[i, j] * b[j]
+        b[i] = s / lu[i, i]
+
+
+@njit(cache=True)
+def wrms(v, scale, n):
+    """Weighted root-mean-square norm ``sqrt(mean((v[:n] / scale[:n])**2))``; 0 for n == 0."""
+    if n == 0:
+        return 0.0
+    s = 0.0
+    for i in range(n):
+        q = v[i] / scale[i]
+        s += q * q
+    return math.sqrt(s / n)
+
+
+@njit(cache=True)
+def all_finite(v, n):
+    """True when every one of ``v[:n]`` is finite (no NaN, no inf)."""
+    for i in range(n):
+        if not math.isfinite(v[i]):
+            return False
+    return True
+
+
+@njit(cache=True)
+def first_nonfinite(v, n):
+    """Index of the first non-finite entry of ``v[:n]``, or -1."""
+    for i in range(n):
+        if not math.isfinite(v[i]):
+            return i
+    return -1
