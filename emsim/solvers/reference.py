@@ -75,7 +75,8 @@ class _Run:
         self.dq = np.zeros(prob.n_quad)
         self.g = np.zeros(max(prob.n_events, 1))
         self.row = np.zeros(prob.n_record)
-        self.stats = {"steps": 0, "rhs_evaluations": 0, "state_events": 0, "time_events": 0}
+        self.stats = {"steps": 0, "rejected": 0, "rhs_evals": 0, "jacobians": 0, "factorizations": 0,
+                      "newton_iterations": 0, "time_events": 0, "state_events": 0}
         self.k_out = 0
 
     # -- algebraic rows ---------------------------------------------------------------
@@ -83,7 +84,7 @@ class _Run:
         mod, p = self.prob.module, self.prob.p
         alg = self.alg
         mod.system_rhs(t, y, p, self.m, self.d, self.w, self.dy)
-        self.stats["rhs_evaluations"] += 1
+        self.stats["rhs_evals"] += 1
         if alg.size == 0:
             return
         nominal = self.prob.nominal
@@ -97,7 +98,7 @@ class _Run:
                 mod.system_rhs(t, y, p, self.m, self.d, self.w, self.dy)
                 jac[:, j] = (self.dy[alg] - res) / h
                 y[col] = keep
-            self.stats["rhs_evaluations"] += alg.size + 1
+            self.stats["rhs_evals"] += alg.size + 1
             step = np.linalg.solve(jac, res)
             y[alg] -= step
             mod.system_rhs(t, y, p, self.m, self.d, self.w, self.dy)
@@ -134,11 +135,14 @@ class _Run:
         return self.g[: self.prob.n_events].copy()
 
     # -- output -------------------------------------------------------------------------
-    def record_until(self, t_reached, dense, t_from):
+    def record_until(self, t_reached, dense, t_from, inclusive=True):
+        """Rows up to ``t_reached``; exclusive when events are about to apply there (contract 5)."""
         rows_t, rows = [], []
         while True:
             tk = self.prob.t0 + self.k_out * self.out_dt
-            if tk > t_reached * (1 + 1e-14) + 1e-300 or tk > self.t_end * (1 + 1e-14):
+            if tk > self.t_end * (1 + 1e-14) + 1e-300:
+                break
+            if (tk > t_reached) if inclusive else (tk >= t_reached):
                 break
             z = dense(tk) if (dense is not None and tk > t_from) else self.y[self.ode_rows]
             y = self.y.copy()
@@ -197,14 +201,17 @@ class _Run:
                         t_ev = min(times)
                         tol = 1e-12 * max(1.0, abs(t_ev))
                         event_hit = (t_ev, [int(k) for k, te in zip(hits, times) if te <= t_ev + tol])
-                        self.record_until(t_ev, dense, t_prev)
+                        self.record_until(t_ev, dense, t_prev, inclusive=False)
                         self.y[self.ode_rows] = dense(t_ev)
                         t = t_ev
                         break
                     g_old = g_new
-                self.record_until(stepper.t, dense, t_prev)
+                at_bound = stepper.t >= t_bound and t_bound < self.t_end
+                self.record_until(stepper.t, dense, t_prev, inclusive=not at_bound)
                 t = stepper.t
                 self.y[self.ode_rows] = stepper.y
+            self.stats["jacobians"] += stepper.njev
+            self.stats["factorizations"] += stepper.nlu
             self.y_work = self.y.copy()
             self.solve_algebraic(t, self.y)
             if event_hit is not None:
@@ -225,6 +232,8 @@ class _Run:
                 self.stats["time_events"] += n
                 self.log(t, list(log[:n]), KIND_TIME, [-1] * n)
                 self.solve_algebraic(t, self.y)
+            self.y_work = self.y.copy()
+            self.record_until(t, None, t)
         self.final_y = self.y.copy()
         return dict(self.stats)
 
