@@ -20,20 +20,33 @@ import time
 import numpy as np
 
 
-def median_time(fn, repeats=5, warmup=1):
-    """Call ``fn()`` ``warmup`` times untimed, then ``repeats`` times timed.
+def timed_runs(fn, repeats=5, warmup=1, budget=None):
+    """Call ``fn()`` ``warmup`` times untimed, then up to ``repeats`` times timed.
 
-    Returns ``(median wall seconds, result of the last call)``.
+    With ``budget`` (seconds), timing stops early once the timed runs so far
+    add up to at least ``budget`` (always at least one timed run).
+    Returns ``(list of wall seconds, result of the last call)``.
     """
     result = None
     for _ in range(warmup):
         result = fn()
     times = []
-    for _ in range(repeats):
+    for _ in range(max(repeats, 1)):
         gc.collect()
         t0 = time.perf_counter()
         result = fn()
         times.append(time.perf_counter() - t0)
+        if budget is not None and sum(times) >= budget:
+            break
+    return times, result
+
+
+def median_time(fn, repeats=5, warmup=1, budget=None):
+    """Median wall time of ``fn()``: returns ``(median seconds, result)``.
+
+    Warm-up calls (JIT compilation, caches) are not timed; see timed_runs.
+    """
+    times, result = timed_runs(fn, repeats, warmup, budget)
     return statistics.median(times), result
 
 
