@@ -23,8 +23,8 @@ class SampledPISpeed(Component):
     The integral is thus frozen while the candidate is beyond a limit and the error
     would push it further (clamping anti-windup).
 
-    The first sample is taken by ``start`` at the start time ``t0``; ``at_time`` takes
-    the samples at ``t0 + k*period``, k >= 1.
+    Assembly calls ``at_time`` at every sample instant ``t0 + k*period``, k >= 0: the first
+    sample is taken at the start time.
 
     Parameters
     ----------
@@ -79,14 +79,6 @@ class SampledPISpeed(Component):
 
     @staticmethod
     def at_time(t, x, a, f, u, p, m, d):
-        e = u[0] - a[0]
-        v = p[1] * e + d[0]
-        d[1] = min(max(v, p[3]), p[4])
-        if not ((v > p[4] and e > 0.0) or (v < p[3] and e < 0.0)):
-            d[0] = d[0] + p[2] * p[0] * e
-
-    @staticmethod
-    def start(t, x, a, f, u, p, m, d):
         e = u[0] - a[0]
         v = p[1] * e + d[0]
         d[1] = min(max(v, p[3]), p[4])
