@@ -478,36 +478,60 @@ def radau_event_value(k, tq, t_s, h_s, y_s, qd, p, m, d, w, yint, gtmp, stats):
 
 
 @radau_njit(cache=True)
-def radau_locate(t_s, h_s, t_new, y_s, qd, p, m, d, w, g_old, g_new, event_dir, tol,
+def radau_crossing(go, gn, direction):
+    """True when (go, gn) is a sign change in the watched direction (see the module docstring)."""
+    if go < 0.0 and gn >= 0.0 and direction >= 0:
+        return True
+    if go > 0.0 and gn <= 0.0 and direction <= 0:
+        return True
+    return False
+
+
+@radau_njit(cache=True)
+def radau_locate(t_s, h_s, t_new, y_s, qd, p, m, d, w, g_old, g_st, g_new, event_dir, tol,
                  yint, gtmp, ev_hit, ev_root, stats):
     """Earliest state event(s) in (t_s, t_new] on the dense output.
 
-    Each event function with a sign change of the watched direction is solved
-    by the Illinois variant of regula falsi on the interpolant until the
-    bracket is shorter than ``tol``; the right end is taken. Events whose roots
-    lie within ``tol`` of the earliest form one group (``ev_hit``), applied at
-    the latest root of the group. Returns (t_event, group size).
+    The event functions are known at the step start (``g_old``), at the first
+    two stage points ``t_s + c_i h`` (``g_st``) and at the step end
+    (``g_new``); for each function the first of these three sub-intervals with
+    a sign change of the watched direction is searched, so a function that
+    crosses and re-crosses zero inside a step is still caught when a stage
+    point falls between the crossings. The root is found by the Illinois
+    variant of regula falsi on the interpolant until the bracket is shorter
+    than ``tol``; the right end is taken. Events whose roots lie within ``tol``
+    of the earliest form one group (``ev_hit``), applied at the latest root of
+    the group. Returns (t_event, group size).
     """
     n_ev = event_dir.shape[0]
     t_first = radau_np.inf
     n_cross = 0
     for k in range(n_ev):
         ev_hit[k] = False
-        go = g_old[k]
-        gn = g_new[k]
-        if go < 0.0 and gn >= 0.0 and event_dir[k] >= 0:
-            pass
-        elif go > 0.0 and gn <= 0.0 and event_dir[k] <= 0:
-            pass
-        else:
-            ev_root[k] = radau_np.inf
+        ev_root[k] = radau_np.inf
+        found = False
+        a = t_s
+        ga = g_old[k]
+        b = t_new
+        gb = g_new[k]
+        for sub in range(3):
+            if sub < 2:
+                tb = t_s + radau_C[sub] * h_s
+                gbs = g_st[sub, k]
+            else:
+                tb = t_new
+                gbs = g_new[k]
+            if radau_crossing(ga, gbs, event_dir[k]):
+                b = tb
+                gb = gbs
+                found = True
+                break
+            a = tb
+            ga = gbs
+        if not found:
             continue
         n_cross += 1
-        s0 = 1.0 if go > 0.0 else -1.0
-        a = t_s
-        ga = go
-        b = t_new
-        gb = gn
+        s0 = 1.0 if ga > 0.0 else -1.0
         side = 0
         for it in range(200):
             width = b - a
@@ -598,6 +622,7 @@ def radau_integrate(t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main
     zm = radau_np.empty(max(n, 1))
     dz = radau_np.empty(max(n, 1))
     g_new = radau_np.empty(max(n_ev, 1))
+    g_st = radau_np.empty((2, max(n_ev, 1)))
     gtmp = radau_np.empty(max(n_ev, 1))
     ev_hit = radau_np.zeros(max(n_ev, 1), dtype=radau_np.bool_)
     ev_root = radau_np.empty(max(n_ev, 1))
@@ -871,10 +896,13 @@ def radau_integrate(t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main
         n_hit = 0
         if n_ev > 0:
             system_events(t_new, ynew, p, m, d, w, g_new)
-            stats[radau_S_EVENT_FN] += 1
+            for s in range(2):
+                radau_interp(t_s + radau_C[s] * h_s, t_s, h_s, yold, qd, yint)
+                system_events(t_s + radau_C[s] * h_s, yint, p, m, d, w, g_st[s])
+            stats[radau_S_EVENT_FN] += 3
             tol = event_tol * max(1.0, abs(t_new))
-            t_ev, n_hit = radau_locate(t_s, h_s, t_new, yold, qd, p, m, d, w, g_old, g_new, event_dir, tol,
-                                       yint, gtmp, ev_hit, ev_root, stats)
+            t_ev, n_hit = radau_locate(t_s, h_s, t_new, yold, qd, p, m, d, w, g_old, g_st, g_new, event_dir,
+                                       tol, yint, gtmp, ev_hit, ev_root, stats)
         snap = 64.0 * radau_EPS * max(1.0, abs(t_ev))
         radau_emit_interp(t_s, h_s, yold, qd, p, m, d, w, out_t0, out_dt, t_ev - snap, buf, buf_t, ti, yint)
         if n_hit > 0 and t_ev < t_new:

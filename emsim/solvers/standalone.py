@@ -82,17 +82,18 @@ def _call(alias, fn, short, full, role):
 def compile_standalone(rhs, y0, *, n_main=None, mass=None, events=None, directions=None, on_event=None,
                        time_events=None, n_quad=0, quad=None, record=None, n_record=None,
                        p=(), m0=(0,), d0=(0.0,), t0=0.0, nominal=None, state_names=None,
-                       name=None) -> Problem:
+                       row_owner=None, name=None) -> Problem:
     """Build a :class:`Problem` whose module wraps plain functions (see the module docstring)."""
     y0 = np.asarray(y0, dtype=np.float64).copy()
     n_quad = int(n_quad)
     n_main = int(len(y0) - n_quad if n_main is None else n_main)
     if n_main + n_quad != len(y0):
         raise ValueError(f"standalone: n_main + n_quad = {n_main + n_quad} but len(y0) = {len(y0)}")
-    if (quad is None) != (n_quad == 0):
-        raise ValueError("standalone: give quad exactly when n_quad > 0")
+    if quad is None and n_quad > 0:
+        raise ValueError("standalone: n_quad > 0 needs quad")
     if events is not None and directions is None:
-        raise ValueError("standalone: events needs directions (one of -1, 0, +1 per event function)")
+        raise ValueError("standalone: events needs directions (one of -1, 0, +1 per event function; "
+                         "() for none)")
     directions = np.asarray(() if directions is None else directions, dtype=np.int64)
     n_events = int(len(directions)) if events is not None else 0
     mass = np.ones(n_main) if mass is None else np.asarray(mass, dtype=np.float64).copy()
@@ -168,13 +169,16 @@ def compile_standalone(rhs, y0, *, n_main=None, mass=None, events=None, directio
 
     names = list(state_names) if state_names is not None else [f"y{i}" for i in range(len(y0))]
     owner = label
+    owners = list(row_owner) if row_owner is not None else [owner] * len(y0)
+    if len(owners) != len(y0):
+        raise ValueError(f"standalone: {len(owners)} row owners for {len(y0)} states")
     return Problem(
         module=module, t0=float(t0), y0=y0, p=np.asarray(p, dtype=np.float64).copy(),
         m0=np.asarray(m0, dtype=np.int64).copy(), d0=np.asarray(d0, dtype=np.float64).copy(),
         n_work=1, mass=mass, n_main=n_main, n_quad=n_quad, n_events=n_events, n_record=n_record,
         event_direction=directions, nominal=np.ones(len(y0)) if nominal is None
         else np.asarray(nominal, dtype=np.float64).copy(),
-        state_names=names, row_owner=[owner] * len(y0),
+        state_names=names, row_owner=owners,
         event_owner=[f"{owner}.event{k}" for k in range(n_events)],
         component_names=[owner], record_names=names[:n_record] if record is None else [],
         record_units=[], description={"name": label},

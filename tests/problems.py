@@ -1,0 +1,138 @@
+"""Plain test problems for the solver tests, written in the numba subset.
+
+The generated standalone modules import this file by name (``problems``; see
+``emsim/solvers/standalone.py``). Compiling the integrator into a generated
+module takes a while, so all test problems share ONE set of functions: the
+problem is selected by ``p[0]`` (the ``BANK_*`` numbers below) and its
+parameters follow in ``p[1:]``. Every test then reuses one compiled module.
+"""
+import math
+
+import numpy as np
+
+ROBERTSON = 0        # Hairer & Wanner, Solving ODEs II, IV.1 (1.4): k1=0.04, k2=3e7, k3=1e4
+ROBERTSON_DAE = 1    # same, third equation replaced by y1 + y2 + y3 = 1 (algebraic row)
+VAN_DER_POL = 2      # Hairer & Wanner II, IV.1 (1.5'): y1' = y2, eps*y2' = (1 - y1^2) y2 - y1
+HIRES = 3            # Hairer & Wanner II, IV.10 test set, "HIRES" (Schaefer 1975), 8 states
+SMOOTH = 4           # y1' = y1 cos t, y2' = -2 t y2^2 (+ quadrature q' = y2): exact solution known
+GAP = 5              # inertia under constant torque closing a gap, stops on contact
+BOUNCE = 6           # point mass under gravity bouncing with restitution e
+RETRIGGER = 7        # reset map that puts the state just before the switching surface again
+STEP_INPUT = 8       # y' = u, u jumps from +1 to -1 at a time event t1
+SAMPLED = 9          # y' = -a y + u, u = -K y sampled every Ts (zero-order hold)
+BLOWUP = 10          # y' = y^2, y(0) = 1: blows up at t = 1
+SQRT_NEG = 11        # y1' = 1, y2' = sqrt(1 - y1): no real solution after t = 1
+
+
+def bank_rhs(t, y, p, m, d, dy):
+    sel = int(p[0])
+    if sel == ROBERTSON or sel == ROBERTSON_DAE:
+        r1 = 0.04 * y[0]
+        r2 = 1e4 * y[1] * y[2]
+        r3 = 3e7 * y[1] * y[1]
+        dy[0] = -r1 + r2
+        dy[1] = r1 - r2 - r3
+        if sel == ROBERTSON:
+            dy[2] = r3
+        else:
+            dy[2] = y[0] + y[1] + y[2] - 1.0
+    elif sel == VAN_DER_POL:
+        eps = p[1]
+        dy[0] = y[1]
+        dy[1] = ((1.0 - y[0] * y[0]) * y[1] - y[0]) / eps
+    elif sel == HIRES:
+        dy[0] = -1.71 * y[0] + 0.43 * y[1] + 8.32 * y[2] + 0.0007
+        dy[1] = 1.71 * y[0] - 8.75 * y[1]
+        dy[2] = -10.03 * y[2] + 0.43 * y[3] + 0.035 * y[4]
+        dy[3] = 8.32 * y[1] + 1.71 * y[2] - 1.12 * y[3]
+        dy[4] = -1.745 * y[4] + 0.43 * y[5] + 0.43 * y[6]
+        dy[5] = -280.0 * y[5] * y[7] + 0.69 * y[3] + 1.71 * y[4] - 0.43 * y[5] + 0.69 * y[6]
+        dy[6] = 280.0 * y[5] * y[7] - 1.81 * y[6]
+        dy[7] = -dy[6]
+    elif sel == SMOOTH:
+        dy[0] = y[0] * math.cos(t)
+        dy[1] = -2.0 * t * y[1] * y[1]
+    elif sel == GAP:
+        # y = (angle, speed); p = (sel, torque, inertia, gap); m[0] = 1 after contact
+        if m[0] == 0:
+            dy[0] = y[1]
+            dy[1] = p[1] / p[2]
+        else:
+            dy[0] = 0.0
+            dy[1] = 0.0
+    elif sel == BOUNCE:
+        # y = (height, velocity); p = (sel, g, e)
+        dy[0] = y[1]
+        dy[1] = -p[1]
+    elif sel == RETRIGGER:
+        dy[0] = 1.0
+    elif sel == STEP_INPUT:
+        dy[0] = d[0]
+    elif sel == SAMPLED:
+        # p = (sel, a, K, Ts)
+        dy[0] = -p[1] * y[0] + d[0]
+    elif sel == BLOWUP:
+        dy[0] = y[0] * y[0]
+    elif sel == SQRT_NEG:
+        dy[0] = 1.0
+        dy[1] = math.sqrt(1.0 - y[0])
+
+
+def bank_quad(t, y, p, m, d, dq):
+    # SMOOTH: q' = y2 = 1/(1 + t^2), so q = atan(t)
+    dq[0] = y[1]
+
+
+def bank_events(t, y, p, m, d, g):
+    sel = int(p[0])
+    if sel == GAP:
+        g[0] = y[0] - p[3]
+    elif sel == BOUNCE:
+        g[0] = y[0]
+    elif sel == RETRIGGER:
+        g[0] = y[0] - 1.0
+
+
+def bank_on_event(k, t, y, p, m, d):
+    sel = int(p[0])
+    if sel == GAP:
+        m[0] = 1
+        y[1] = 0.0
+    elif sel == BOUNCE:
+        y[1] = -p[2] * y[1]
+    elif sel == RETRIGGER:
+        y[0] = 1.0 - 1e-13
+
+
+def bank_next_time(t, p, m, d):
+    sel = int(p[0])
+    if sel == STEP_INPUT:
+        # p = (sel, t1)
+        if t < p[1]:
+            return p[1]
+        return np.inf
+    if sel == SAMPLED:
+        ts = p[3]
+        k = math.floor(t / ts) + 1.0
+        if k * ts <= t:
+            k += 1.0
+        return k * ts
+    return np.inf
+
+
+def bank_at_time(t, y, p, m, d):
+    sel = int(p[0])
+    if sel == STEP_INPUT:
+        d[0] = -1.0
+    elif sel == SAMPLED:
+        d[0] = -p[2] * y[0]
+
+
+def make(sel, y0, params=(), *, directions=(), n_quad=0, **kw):
+    """A standalone problem of the bank: every problem shares the same compiled module."""
+    from emsim.solvers.standalone import compile_standalone
+
+    return compile_standalone(
+        bank_rhs, y0, events=bank_events, directions=directions, on_event=bank_on_event,
+        time_events=(bank_next_time, bank_at_time), n_quad=n_quad, quad=bank_quad,
+        p=(float(sel), *params), name="solver_test_bank", **kw)
