@@ -467,7 +467,7 @@ def test_pi_unsaturated_matches_scipy_lfilter():
     speeds = rng.uniform(0, 100, 40)
     ref = 60.0
     b = Bench(pi, u=[ref], a=[speeds[0]])
-    b.start(0.0)
+    b.at_time(0.0)  # assembly takes the first sample at t0 through at_time
     ys = [b.d[1]]
     for k in range(1, speeds.size):
         b.a[0] = speeds[k]
