@@ -24,7 +24,8 @@ where noted)::
         n_main,       # int: rows in the Newton system
         opt,          # float64[8]: rtol, event_tol, max_step, out_t0, out_dt,
                       #             fixed step (0 = adaptive), h0 (0 = automatic), unused
-        iopt,         # int64[4]:  max_events_at_instant, max_steps (0 = no limit), unused, unused
+        iopt,         # int64[4]:  max_events_at_instant, max_steps (0 = no limit),
+                      #            call system_start on the first call (1) or not (0), unused
         buf,          # float64[rows, n_record]    output rows, filled from ti[1]
         buf_t,        # float64[rows]              their times
         log_t, log_comp, log_kind, log_index,   # event log: time, component, kind (1 time,
@@ -45,6 +46,14 @@ where noted)::
         stats)        # int64[10]: steps, rejected, rhs evaluations, Jacobians, LU
                       #   factorisations, Newton iterations, time events, state events,
                       #   event-function evaluations, quadrature evaluations
+
+On the first call (``ti[3] == 0``) the kernel calls ``system_start`` only when
+``iopt[2] == 1``, then makes the algebraic rows consistent, evaluates the event
+functions and asks for the first time event. The driver sets ``iopt[2] = 1``
+only for a problem with ``problem.start_applied = False``: the producer of a
+:class:`Problem` normally applies ``system_start`` to ``y0``/``m0``/``d0``
+itself (assembly does, in ``assemble()``), and calling it twice would sample
+controllers twice at ``t0``.
 
 Status: 0 ``t_end`` reached; 1 output buffer full (or the next step's rows
 would not fit); 2 event log nearly full; -1 step size too small; -2 Newton
@@ -221,7 +230,8 @@ class RadauRun:
         self.opt = np.array([solver.rtol, solver.event_tol, solver.max_step,
                              t0 if out_t0 is None else float(out_t0), float(out_dt),
                              solver.fixed_step or 0.0, solver.h0 or 0.0, 0.0])
-        self.iopt = np.array([solver.max_events_at_instant, solver.max_steps, 0, 0], dtype=np.int64)
+        call_start = 0 if getattr(problem, "start_applied", True) else 1
+        self.iopt = np.array([solver.max_events_at_instant, solver.max_steps, call_start, 0], dtype=np.int64)
         n_rec = int(problem.n_record)
         self.buf = np.zeros((solver.batch_rows, n_rec))
         self.buf_t = np.zeros(solver.batch_rows)

@@ -41,6 +41,14 @@ Quadrature rows ``y[n_main:]`` are integrated by the same collocation formula
 are excluded from the error norm (they never feed back, so they cannot make a
 step fail; their accuracy follows that of the main rows).
 
+Event detection looks for sign changes between the step start, the first two
+stage points and the step end. A function that crosses zero and comes back
+between two of these check points is not seen; in particular after an event a
+function left just past zero (the right end of the root bracket) re-arms only
+when it is seen on its original side again, so an accumulation of events in
+finite time (a bouncing ball coming to rest) may end unseen: model a rest
+mode, or bound the step with ``max_step``.
+
 Event order at one instant: state events located at that instant are applied
 first, in increasing event index, then the time events due at that instant.
 A located state-event time is the right end of the final root bracket, where
@@ -642,7 +650,8 @@ def radau_integrate(t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main
     ti[radau_I_FAILINFO] = -1
 
     if ti[radau_I_STARTED] == 0:
-        system_start(t, y, p, m, d, w)
+        if iopt[2] != 0:
+            system_start(t, y, p, m, d, w)
         ti[radau_I_JAC] = 0
         ti[radau_I_JACNOW] = 0
         ti[radau_I_LU] = 0
@@ -727,6 +736,14 @@ def radau_integrate(t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main
                 tf[radau_F_HFAIL] = h
                 if cause == 3:
                     return radau_STATUS_NONFINITE
+                if ti[radau_I_FAILINFO] < 0:
+                    # no error test decided it: name the row that changes fastest relative to its weight
+                    worst = -1.0
+                    for i in range(n):
+                        q = abs(f0[i]) / (atol[i] + rtol * abs(y[i]))
+                        if q > worst:
+                            worst = q
+                            ti[radau_I_FAILINFO] = i
                 if cause == 2:
                     return radau_STATUS_NEWTON
                 return radau_STATUS_STEP_TOO_SMALL
