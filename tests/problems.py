@@ -22,6 +22,10 @@ STEP_INPUT = 8       # y' = u, u jumps from +1 to -1 at a time event t1
 SAMPLED = 9          # y' = -a y + u, u = -K y sampled every Ts (zero-order hold)
 BLOWUP = 10          # y' = y^2, y(0) = 1: blows up at t = 1
 SQRT_NEG = 11        # y1' = 1, y2' = sqrt(1 - y1): no real solution after t = 1
+DRIVE = 12           # small DC drive, 5 differential + 3 algebraic rows, PI speed control sampled every Ts
+
+# DRIVE parameters p[1:]: (L, R, k, Jm, ks, c, Jl, b, T_load, tau, Vdc, R_src, Kp, Ki, w_ref, Ts)
+DRIVE_P = (2e-3, 0.5, 0.1, 2e-4, 50.0, 0.05, 1e-3, 1e-3, 0.05, 2e-3, 48.0, 0.05, 0.5, 20.0, 100.0, 1e-3)
 
 
 def bank_rhs(t, y, p, m, d, dy):
@@ -76,6 +80,17 @@ def bank_rhs(t, y, p, m, d, dy):
     elif sel == SQRT_NEG:
         dy[0] = 1.0
         dy[1] = math.sqrt(1.0 - y[0])
+    elif sel == DRIVE:
+        # y = (i, w_m, twist, w_l, w_filtered | v_t, T_e, T_s); d = (duty, integral)
+        i, wm, th, wl, x, vt, te, tsh = y[0], y[1], y[2], y[3], y[4], y[5], y[6], y[7]
+        dy[0] = (vt - p[2] * i - p[3] * wm) / p[1]
+        dy[1] = (te - tsh) / p[4]
+        dy[2] = wm - wl
+        dy[3] = (tsh - p[8] * wl - p[9]) / p[7]
+        dy[4] = (wm - x) / p[10]
+        dy[5] = vt - (d[0] * p[11] - p[12] * i)
+        dy[6] = te - p[3] * i
+        dy[7] = tsh - (p[5] * th + p[6] * (wm - wl))
 
 
 def bank_quad(t, y, p, m, d, dq):
@@ -111,8 +126,8 @@ def bank_next_time(t, p, m, d):
         if t < p[1]:
             return p[1]
         return np.inf
-    if sel == SAMPLED:
-        ts = p[3]
+    if sel == SAMPLED or sel == DRIVE:
+        ts = p[3] if sel == SAMPLED else p[16]
         k = math.floor(t / ts) + 1.0
         if k * ts <= t:
             k += 1.0
@@ -126,7 +141,17 @@ def bank_at_time(t, y, p, m, d):
         d[0] = -1.0
     elif sel == SAMPLED:
         d[0] = -p[2] * y[0]
-
+    elif sel == DRIVE:
+        # PI on the filtered speed, output clamped to [-1, 1], integration stops while clamped
+        e = p[15] - y[4]
+        u = p[13] * e + p[14] * (d[1] + p[16] * e)
+        if u > 1.0:
+            d[0] = 1.0
+        elif u < -1.0:
+            d[0] = -1.0
+        else:
+            d[0] = u
+            d[1] += p[16] * e
 
 def make(sel, y0, params=(), *, directions=(), n_quad=0, **kw):
     """A standalone problem of the bank: every problem shares the same compiled module."""

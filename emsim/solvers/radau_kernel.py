@@ -277,9 +277,13 @@ def radau_newton(t, h, y, p, m, d, w, mass, n, sc, z, wt, f, ys, br, bc,
                 eta = min(eta, 1.0)
             elif rate >= 0.99:
                 return 1, it + 1, rate, eta
-            elif rate ** (maxit - 1 - it) / (1.0 - rate) * dw > fnewt:
-                return 1, it + 1, rate, eta
             else:
+                # predicted size of the last increment if the iteration goes on to maxit
+                pred = dw / (1.0 - rate)
+                for _ in range(maxit - 1 - it):
+                    pred *= rate
+                if pred > fnewt:
+                    return 1, it + 1, rate, eta
                 eta = rate / (1.0 - rate)
         for j in range(n):
             wt[0, j] += br[j]
@@ -704,8 +708,11 @@ def radau_integrate(t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main
         if rem <= h * (1.0 + 1e-6):
             h = rem
             lands = True
-        elif rem < 2.0 * h:
-            h = 0.5 * rem
+        else:
+            # equal steps up to the next time event: no sliver step, and while the proposal holds
+            # the same step size recurs in every sampling interval, so the LU factors are reused
+            n_steps = radau_math.ceil(rem / h * (1.0 - 1e-6))
+            h = rem / n_steps
         # output rows of this step must fit in the buffer
         nr = ti[radau_I_NROWS]
         k_nofit = ti[radau_I_KOUT] + (buf.shape[0] - nr)
@@ -844,7 +851,7 @@ def radau_integrate(t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main
             for i in range(n):
                 sc[i] = atol[i] + rtol * abs(y[i])
             fac = min(radau_SAFE, radau_SAFE * (1 + 2 * radau_MAXIT) / (nit + 2 * radau_MAXIT))
-            quot = max(0.125, min(5.0, errn ** 0.25 / fac))
+            quot = max(0.125, min(5.0, radau_math.sqrt(radau_math.sqrt(errn)) / fac))
             if ti[radau_I_FIRST] == 1:
                 h *= 0.1
             else:
@@ -891,9 +898,9 @@ def radau_integrate(t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main
             ti[radau_I_JAC] = 0
         if not fixed:
             fac = min(radau_SAFE, radau_SAFE * (1 + 2 * radau_MAXIT) / (nit + 2 * radau_MAXIT))
-            quot = max(0.125, min(5.0, errn ** 0.25 / fac))
+            quot = max(0.125, min(5.0, radau_math.sqrt(radau_math.sqrt(errn)) / fac))
             if ti[radau_I_FIRST] == 0 and tf[radau_F_HACC] > 0.0:
-                facgus = (tf[radau_F_HACC] / h) * (errn * errn / tf[radau_F_ERRACC]) ** 0.25 / radau_SAFE
+                facgus = (tf[radau_F_HACC] / h) * radau_math.sqrt(radau_math.sqrt(errn * errn / tf[radau_F_ERRACC])) / radau_SAFE
                 facgus = max(0.125, min(5.0, facgus))
                 quot = max(quot, facgus)
             tf[radau_F_HACC] = h
