@@ -3,7 +3,6 @@ from __future__ import annotations
 
 import math
 import re
-from pathlib import Path
 
 import numpy as np
 
@@ -12,17 +11,12 @@ from ..errors import AssemblyError, EmsimError, PluginError
 from ..model.declarations import DOMAINS
 from ..model.system import System
 from ..units import to_si
+from ..solvers.abi import export_source
 from .codegen import generate
 from .compile import load_generated
 from .layout import lay_out
 from .problem import Problem
 from .structure import Structure, analyse
-
-
-def solver_kernel_source() -> str:
-    """Text of the compiled integrator, appended to every generated module."""
-    path = Path(__file__).resolve().parent.parent / "solvers" / "radau_kernel.py"
-    return path.read_text() if path.exists() else ""
 
 
 def assemble(system: System, *, t0: float = 0.0) -> Problem:
@@ -39,7 +33,7 @@ def assemble(system: System, *, t0: float = 0.0) -> Problem:
     lay = lay_out(st)
     _apply_initial(st, lay)
     source, names, units, fingerprint = generate(st, lay)
-    module = load_generated("system", source + "\n\n" + solver_kernel_source(), extra_key=fingerprint)
+    module = load_generated("system", source + export_source(), extra_key=fingerprint)
     prob = Problem(
         module=module, t0=float(t0), y0=lay.y0.copy(), p=lay.p.copy(),
         m0=np.zeros(max(lay.m_size, 1), dtype=np.int64), d0=lay.d0.copy() if lay.d0.size else np.zeros(1),

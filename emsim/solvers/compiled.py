@@ -1,8 +1,8 @@
 """Python driver of the compiled Radau IIA integrator.
 
-The whole step loop runs in numba inside the generated module of a problem
-(``problem.module.radau_integrate``, compiled from :func:`kernel_source`
-appended to the generated system functions). This driver owns every array the
+The whole step loop runs in numba (:func:`emsim.solvers.radau_kernel.radau_integrate`),
+compiled and cached once for all systems: it receives the generated system
+functions of a problem as C callbacks (see :mod:`emsim.solvers.abi`). This driver owns every array the
 kernel keeps between calls, calls the kernel until ``t_end``, hands the output
 rows and the event log to the sink in batches and turns failure codes into
 :class:`emsim.errors.SolverError`.
@@ -11,6 +11,8 @@ rows and the event log to the sink in batches and turns failure codes into
 where noted)::
 
     status = radau_integrate(
+        rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn,
+                      # the problem's callbacks, abi.callbacks(problem.module)
         t_end,        # float: integrate up to and including this time
         y,            # float64[n_main + n_quad]   state, in/out
         p,            # float64[:]                 parameters
@@ -64,16 +66,14 @@ calls again; nothing is re-evaluated on such a restart.
 """
 from __future__ import annotations
 
-import hashlib
 import math
-from pathlib import Path
 
 import numpy as np
 
 from ..errors import SolverError
+from . import abi
 from .base import Solver
-
-_HERE = Path(__file__).resolve().parent
+from .radau_kernel import radau_integrate
 
 STATUS_TEXT = {
     -1: "step size too small",
@@ -85,18 +85,6 @@ STATUS_TEXT = {
 
 STAT_NAMES = ("steps", "rejected", "rhs_evals", "jacobians", "factorizations",
               "newton_iterations", "time_events", "state_events", "event_fn_evals", "quad_evals")
-
-
-def kernel_source() -> str:
-    """Text to append to a generated system module to compile the integrator into it.
-
-    It is the text of ``radau_kernel.py`` followed by a comment with a digest of
-    ``dense.py``: the kernel links the dense helpers into its machine code, so a
-    change there must change the generated source (and so its cache key).
-    """
-    text = (_HERE / "radau_kernel.py").read_text()
-    digest = hashlib.sha256((_HERE / "dense.py").read_bytes()).hexdigest()[:16]
-    return text + f"\n# dense helpers digest: {digest}\n"
 
 
 class Radau5(Solver):
@@ -186,8 +174,9 @@ class RadauRun:
         self.solver = solver
         self.problem = problem
         mod = problem.module
-        _check(hasattr(mod, "radau_integrate"), problem,
-               "its generated module has no radau_integrate (append kernel_source() to the generated text)")
+        _check(all(hasattr(mod, f"cb_{n}") for n in abi.ORDER), problem,
+               "its generated module does not export the system callbacks (append abi.export_source())")
+        self.callbacks = abi.callbacks(mod)
         n_main, n_quad, n_ev = int(problem.n_main), int(problem.n_quad), int(problem.n_events)
         n_tot = n_main + n_quad
         _check(n_main >= 1 and n_quad >= 0 and n_ev >= 0, problem,
@@ -268,12 +257,12 @@ class RadauRun:
         t_end = float(t_end)
         if not math.isfinite(t_end) or t_end < self.t:
             raise SolverError(f"Radau5: t_end = {t_end!r} lies before the current time {self.t!r}")
-        integrate = self.problem.module.radau_integrate
+        integrate = radau_integrate
         while True:
             self.ti[1] = 0
             self.ti[2] = 0
             status = integrate(
-                t_end, self.y, self.p, self.m, self.d, self.w, self.mass, self.atol, self.nominal,
+                *self.callbacks, t_end, self.y, self.p, self.m, self.d, self.w, self.mass, self.atol, self.nominal,
                 self.event_dir, self.n_main, self.opt, self.iopt, self.buf, self.buf_t,
                 self.log_t, self.log_comp, self.log_kind, self.log_index, self.comp_scratch,
                 self.tf, self.ti, self.jac, self.lu_r, self.lu_c, self.lu_a, self.piv, self.f0,

@@ -27,14 +27,13 @@ only the error-estimate weights are the published values.
 
 How this file is used
 ---------------------
-This module is **not** imported as is by the integration path. Its text is
-appended to a generated module that defines ``system_rhs``, ``system_quad``,
-``system_events``, ``system_on_event``, ``system_next_time``,
-``system_at_time``, ``system_start`` and ``system_record`` (see
-``emsim/assembly/problem.py``); those are free names here. Numba then compiles
-and caches the whole step loop per system. Every name defined here starts with
-``radau_`` so it cannot collide with generated names. (Importing this module
-directly works; calling ``radau_integrate`` from it does not.)
+``radau_integrate`` takes the problem's system functions as its first eight
+arguments: C callbacks with the fixed signatures of :mod:`emsim.solvers.abi`
+(``rhs``, ``quad``, ``events``, ``on_event``, ``next_time``, ``at_time``,
+``start``, ``record``; their contract is in ``emsim/assembly/problem.py``).
+Because those argument types are signatures, not particular functions, numba
+compiles and caches this kernel once for every system; a new system compiles
+only its own small functions. Helpers receive the callbacks they need.
 
 Quadrature rows ``y[n_main:]`` are integrated by the same collocation formula
 (``Z_q = h A F_q`` at the converged stage points), appear in dense output, and
@@ -183,7 +182,7 @@ def radau_row_time(k, out_t0, out_dt):
 
 
 @radau_njit(cache=True)
-def radau_jacobian(t, y, p, m, d, w, f0, nominal, n, jac, ftmp, stats):
+def radau_jacobian(rhs_fn, t, y, p, m, d, w, f0, nominal, n, jac, ftmp, stats):
     """Forward-difference Jacobian of the main rows, column by column, at (t, y)."""
     sq = radau_math.sqrt(radau_EPS)
     for j in range(n):
@@ -193,7 +192,7 @@ def radau_jacobian(t, y, p, m, d, w, f0, nominal, n, jac, ftmp, stats):
             delta = sq
         y[j] = yj + delta
         delta = y[j] - yj
-        system_rhs(t, y, p, m, d, w, ftmp)
+        rhs_fn(t, y, p, m, d, w, ftmp)
         y[j] = yj
         inv = 1.0 / delta
         for i in range(n):
@@ -219,7 +218,7 @@ def radau_factor(h, jac, mass, n, lu_r, lu_c, piv):
 
 
 @radau_njit(cache=True)
-def radau_newton(t, h, y, p, m, d, w, mass, n, sc, z, wt, f, ys, br, bc,
+def radau_newton(rhs_fn, t, h, y, p, m, d, w, mass, n, sc, z, wt, f, ys, br, bc,
                  lu_r, lu_c, piv, eta0, fnewt, maxit, y_fail, tf, stats):
     """Simplified Newton iteration on the transformed collocation system.
 
@@ -241,7 +240,7 @@ def radau_newton(t, h, y, p, m, d, w, mass, n, sc, z, wt, f, ys, br, bc,
         for s in range(3):
             for j in range(n):
                 ys[j] = y[j] + z[s, j]
-            system_rhs(t + radau_C[s] * h, ys, p, m, d, w, f[s])
+            rhs_fn(t + radau_C[s] * h, ys, p, m, d, w, f[s])
         stats[radau_S_RHS] += 3
         stats[radau_S_NEWTON] += 1
         for s in range(3):
@@ -298,7 +297,7 @@ def radau_newton(t, h, y, p, m, d, w, mass, n, sc, z, wt, f, ys, br, bc,
 
 
 @radau_njit(cache=True)
-def radau_error(t, h, y, ynew, z, f0, mass, n, atol, rtol, lu_r, piv, p, m, d, w,
+def radau_error(rhs_fn, t, h, y, ynew, z, f0, mass, n, atol, rtol, lu_r, piv, p, m, d, w,
                 refine, err, zm, sc, ys, ftmp, stats):
     """Hairer & Wanner's error estimate (with mass matrix); refined once when asked."""
     inv_h = 1.0 / h
@@ -314,7 +313,7 @@ def radau_error(t, h, y, ynew, z, f0, mass, n, atol, rtol, lu_r, piv, p, m, d, w
             ys[i] = y[i]
         for i in range(n):
             ys[i] += err[i]
-        system_rhs(t, ys, p, m, d, w, ftmp)
+        rhs_fn(t, ys, p, m, d, w, ftmp)
         stats[radau_S_RHS] += 1
         for i in range(n):
             err[i] = ftmp[i] + zm[i]
@@ -324,7 +323,7 @@ def radau_error(t, h, y, ynew, z, f0, mass, n, atol, rtol, lu_r, piv, p, m, d, w
 
 
 @radau_njit(cache=True)
-def radau_make_consistent(t, y, p, m, d, w, n, alg, n_alg, atol, rtol, nominal,
+def radau_make_consistent(rhs_fn, t, y, p, m, d, w, n, alg, n_alg, atol, rtol, nominal,
                           jac, lu_a, piv, f0, ftmp, dz, y_fail, tf, ti, stats):
     """Solve the algebraic rows for their states with the differential rows fixed.
 
@@ -335,7 +334,7 @@ def radau_make_consistent(t, y, p, m, d, w, n, alg, n_alg, atol, rtol, nominal,
     """
     for attempt in range(2):
         for it in range(10):
-            system_rhs(t, y, p, m, d, w, f0)
+            rhs_fn(t, y, p, m, d, w, f0)
             stats[radau_S_RHS] += 1
             bad = radau_dense.first_nonfinite(f0, n)
             if bad >= 0:
@@ -347,7 +346,7 @@ def radau_make_consistent(t, y, p, m, d, w, n, alg, n_alg, atol, rtol, nominal,
             if n_alg == 0:
                 return 0
             if ti[radau_I_JAC] == 0:
-                radau_jacobian(t, y, p, m, d, w, f0, nominal, n, jac, ftmp, stats)
+                radau_jacobian(rhs_fn, t, y, p, m, d, w, f0, nominal, n, jac, ftmp, stats)
                 ti[radau_I_JAC] = 1
                 ti[radau_I_JACNOW] = 1
                 ti[radau_I_LU] = 0
@@ -392,7 +391,7 @@ def radau_make_consistent(t, y, p, m, d, w, n, alg, n_alg, atol, rtol, nominal,
 
 
 @radau_njit(cache=True)
-def radau_initial_step(t, y, p, m, d, w, f0, mass, n, atol, rtol, ys, ftmp, stats):
+def radau_initial_step(rhs_fn, t, y, p, m, d, w, f0, mass, n, atol, rtol, ys, ftmp, stats):
     """Initial step from the size of y, y' and an estimate of y'' on the differential rows."""
     d0 = 0.0
     d1 = 0.0
@@ -416,7 +415,7 @@ def radau_initial_step(t, y, p, m, d, w, f0, mass, n, atol, rtol, ys, ftmp, stat
     for i in range(n):
         if mass[i] != 0.0:
             ys[i] += h0 * f0[i]
-    system_rhs(t + h0, ys, p, m, d, w, ftmp)
+    rhs_fn(t + h0, ys, p, m, d, w, ftmp)
     stats[radau_S_RHS] += 1
     d2 = 0.0
     for i in range(n):
@@ -445,7 +444,7 @@ def radau_interp(tq, t_s, h_s, y_s, qd, yint):
 
 
 @radau_njit(cache=True)
-def radau_emit_at(t, y, p, m, d, w, out_t0, out_dt, t_lim, buf, buf_t, ti):
+def radau_emit_at(record_fn, t, y, p, m, d, w, out_t0, out_dt, t_lim, buf, buf_t, ti):
     """Rows with row time <= t_lim recorded from the current state; stops when buf is full."""
     cap = buf.shape[0]
     k = ti[radau_I_KOUT]
@@ -454,7 +453,7 @@ def radau_emit_at(t, y, p, m, d, w, out_t0, out_dt, t_lim, buf, buf_t, ti):
         tk = radau_row_time(k, out_t0, out_dt)
         if tk > t_lim:
             break
-        system_record(tk, y, p, m, d, w, buf[nr])
+        record_fn(tk, y, p, m, d, w, buf[nr])
         buf_t[nr] = tk
         nr += 1
         k += 1
@@ -463,7 +462,7 @@ def radau_emit_at(t, y, p, m, d, w, out_t0, out_dt, t_lim, buf, buf_t, ti):
 
 
 @radau_njit(cache=True)
-def radau_emit_interp(t_s, h_s, y_s, qd, p, m, d, w, out_t0, out_dt, t_lim, buf, buf_t, ti, yint):
+def radau_emit_interp(record_fn, t_s, h_s, y_s, qd, p, m, d, w, out_t0, out_dt, t_lim, buf, buf_t, ti, yint):
     """Rows with row time <= t_lim interpolated from the last step's polynomial."""
     cap = buf.shape[0]
     k = ti[radau_I_KOUT]
@@ -473,7 +472,7 @@ def radau_emit_interp(t_s, h_s, y_s, qd, p, m, d, w, out_t0, out_dt, t_lim, buf,
         if tk > t_lim:
             break
         radau_interp(tk, t_s, h_s, y_s, qd, yint)
-        system_record(tk, yint, p, m, d, w, buf[nr])
+        record_fn(tk, yint, p, m, d, w, buf[nr])
         buf_t[nr] = tk
         nr += 1
         k += 1
@@ -482,9 +481,9 @@ def radau_emit_interp(t_s, h_s, y_s, qd, p, m, d, w, out_t0, out_dt, t_lim, buf,
 
 
 @radau_njit(cache=True)
-def radau_event_value(k, tq, t_s, h_s, y_s, qd, p, m, d, w, yint, gtmp, stats):
+def radau_event_value(events_fn, k, tq, t_s, h_s, y_s, qd, p, m, d, w, yint, gtmp, stats):
     radau_interp(tq, t_s, h_s, y_s, qd, yint)
-    system_events(tq, yint, p, m, d, w, gtmp)
+    events_fn(tq, yint, p, m, d, w, gtmp)
     stats[radau_S_EVENT_FN] += 1
     return gtmp[k]
 
@@ -500,7 +499,7 @@ def radau_crossing(go, gn, direction):
 
 
 @radau_njit(cache=True)
-def radau_locate(t_s, h_s, t_new, y_s, qd, p, m, d, w, g_old, g_st, g_new, event_dir, tol,
+def radau_locate(events_fn, t_s, h_s, t_new, y_s, qd, p, m, d, w, g_old, g_st, g_new, event_dir, tol,
                  yint, gtmp, ev_hit, ev_root, stats):
     """Earliest state event(s) in (t_s, t_new] on the dense output.
 
@@ -558,7 +557,7 @@ def radau_locate(t_s, h_s, t_new, y_s, qd, p, m, d, w, g_old, g_st, g_new, event
                     c = b - guard
             else:
                 c = 0.5 * (a + b)
-            gc = radau_event_value(k, c, t_s, h_s, y_s, qd, p, m, d, w, yint, gtmp, stats)
+            gc = radau_event_value(events_fn, k, c, t_s, h_s, y_s, qd, p, m, d, w, yint, gtmp, stats)
             if gc * s0 <= 0.0:
                 b = c
                 gb = gc
@@ -588,7 +587,7 @@ def radau_locate(t_s, h_s, t_new, y_s, qd, p, m, d, w, g_old, g_st, g_new, event
 
 
 @radau_njit(cache=True)
-def radau_integrate(t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
+def radau_integrate(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
                     opt, iopt, buf, buf_t, log_t, log_comp, log_kind, log_index, comp_scratch,
                     tf, ti, jac, lu_r, lu_c, lu_a, piv, f0, g_old, qd, y_fail, stats):
     """Integrate from ``tf[F_T]`` towards ``t_end``; return a status code.
@@ -655,7 +654,7 @@ def radau_integrate(t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main
 
     if ti[radau_I_STARTED] == 0:
         if iopt[2] != 0:
-            system_start(t, y, p, m, d, w)
+            start_fn(t, y, p, m, d, w)
         ti[radau_I_JAC] = 0
         ti[radau_I_JACNOW] = 0
         ti[radau_I_LU] = 0
@@ -666,24 +665,24 @@ def radau_integrate(t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main
         tf[radau_F_TANCHOR] = -radau_np.inf
         tf[radau_F_ETA] = 1.0
         tf[radau_F_HACC] = 0.0
-        st = radau_make_consistent(t, y, p, m, d, w, n, alg, n_alg, atol, rtol, nominal,
+        st = radau_make_consistent(rhs_fn, t, y, p, m, d, w, n, alg, n_alg, atol, rtol, nominal,
                                    jac, lu_a, piv, f0, ftmp, dz, y_fail, tf, ti, stats)
         if st != 0:
             return st
         if n_ev > 0:
-            system_events(t, y, p, m, d, w, g_old)
+            events_fn(t, y, p, m, d, w, g_old)
             stats[radau_S_EVENT_FN] += 1
-        tf[radau_F_TN] = system_next_time(t, p, m, d)
+        tf[radau_F_TN] = next_time_fn(t, p, m, d)
         if fixed:
             tf[radau_F_H] = h_fixed
         elif tf[radau_F_H] <= 0.0:
-            tf[radau_F_H] = radau_initial_step(t, y, p, m, d, w, f0, mass, n, atol, rtol, ys, ftmp, stats)
+            tf[radau_F_H] = radau_initial_step(rhs_fn, t, y, p, m, d, w, f0, mass, n, atol, rtol, ys, ftmp, stats)
         ti[radau_I_STARTED] = 1
 
     while True:
         snap = 64.0 * radau_EPS * max(1.0, abs(t))
         # ---- output rows due at the current instant (state after any events) ----
-        radau_emit_at(t, y, p, m, d, w, out_t0, out_dt, t + snap, buf, buf_t, ti)
+        radau_emit_at(record_fn, t, y, p, m, d, w, out_t0, out_dt, t + snap, buf, buf_t, ti)
         if radau_row_time(ti[radau_I_KOUT], out_t0, out_dt) <= t + snap:
             tf[radau_F_T] = t
             return radau_STATUS_ROWS_FULL
@@ -755,7 +754,7 @@ def radau_integrate(t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main
                     return radau_STATUS_NEWTON
                 return radau_STATUS_STEP_TOO_SMALL
             if ti[radau_I_JAC] == 0:
-                radau_jacobian(t, y, p, m, d, w, f0, nominal, n, jac, ftmp, stats)
+                radau_jacobian(rhs_fn, t, y, p, m, d, w, f0, nominal, n, jac, ftmp, stats)
                 ti[radau_I_JAC] = 1
                 ti[radau_I_JACNOW] = 1
                 ti[radau_I_LU] = 0
@@ -791,7 +790,7 @@ def radau_integrate(t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main
             for i in range(n, n_tot):
                 ys[i] = y[i]
             eta0 = max(tf[radau_F_ETA], radau_EPS) ** 0.8
-            code, nit, rate, eta = radau_newton(t, h, y, p, m, d, w, mass, n, sc, z, wt, f, ys, br, bc,
+            code, nit, rate, eta = radau_newton(rhs_fn, t, h, y, p, m, d, w, mass, n, sc, z, wt, f, ys, br, bc,
                                                 lu_r, lu_c, piv, eta0, fnewt, maxit, y_fail, tf, stats)
             if code != 0:
                 n_fail += 1
@@ -823,7 +822,7 @@ def radau_integrate(t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main
                 errn = 0.0
                 break
             refine = ti[radau_I_FIRST] == 1 or ti[radau_I_REJ] == 1
-            errn = radau_error(t, h, y, ynew, z, f0, mass, n, atol, rtol, lu_r, piv, p, m, d, w,
+            errn = radau_error(rhs_fn, t, h, y, ynew, z, f0, mass, n, atol, rtol, lu_r, piv, p, m, d, w,
                                refine, err, zm, sc, ys, ftmp, stats)
             # (radau_error overwrote sc with the error weights; restored below on rejection)
             if not radau_math.isfinite(errn):
@@ -867,7 +866,7 @@ def radau_integrate(t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main
             for s in range(3):
                 for j in range(n):
                     ys[j] = y[j] + z[s, j]
-                system_quad(t + radau_C[s] * h, ys, p, m, d, w, fq[s])
+                quad_fn(t + radau_C[s] * h, ys, p, m, d, w, fq[s])
             stats[radau_S_QUAD] += 3
             for s in range(3):
                 if not radau_dense.all_finite(fq[s], n_quad):
@@ -919,16 +918,16 @@ def radau_integrate(t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main
         t_ev = t_new
         n_hit = 0
         if n_ev > 0:
-            system_events(t_new, ynew, p, m, d, w, g_new)
+            events_fn(t_new, ynew, p, m, d, w, g_new)
             for s in range(2):
                 radau_interp(t_s + radau_C[s] * h_s, t_s, h_s, yold, qd, yint)
-                system_events(t_s + radau_C[s] * h_s, yint, p, m, d, w, g_st[s])
+                events_fn(t_s + radau_C[s] * h_s, yint, p, m, d, w, g_st[s])
             stats[radau_S_EVENT_FN] += 3
             tol = event_tol * max(1.0, abs(t_new))
-            t_ev, n_hit = radau_locate(t_s, h_s, t_new, yold, qd, p, m, d, w, g_old, g_st, g_new, event_dir,
+            t_ev, n_hit = radau_locate(events_fn, t_s, h_s, t_new, yold, qd, p, m, d, w, g_old, g_st, g_new, event_dir,
                                        tol, yint, gtmp, ev_hit, ev_root, stats)
         snap = 64.0 * radau_EPS * max(1.0, abs(t_ev))
-        radau_emit_interp(t_s, h_s, yold, qd, p, m, d, w, out_t0, out_dt, t_ev - snap, buf, buf_t, ti, yint)
+        radau_emit_interp(record_fn, t_s, h_s, yold, qd, p, m, d, w, out_t0, out_dt, t_ev - snap, buf, buf_t, ti, yint)
         if n_hit > 0 and t_ev < t_new:
             radau_interp(t_ev, t_s, h_s, yold, qd, y)
         else:
@@ -939,7 +938,7 @@ def radau_integrate(t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main
         if time_due:
             t = tf[radau_F_TN]
         if n_hit == 0 and not time_due:
-            system_rhs(t, y, p, m, d, w, f0)
+            rhs_fn(t, y, p, m, d, w, f0)
             stats[radau_S_RHS] += 1
             bad = radau_dense.first_nonfinite(f0, n)
             if bad >= 0:
@@ -972,7 +971,7 @@ def radau_integrate(t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main
         nlog = ti[radau_I_NLOG]
         for kk in range(n_ev):
             if ev_hit[kk]:
-                comp = system_on_event(kk, t, y, p, m, d, w)
+                comp = on_event_fn(kk, t, y, p, m, d, w)
                 log_t[nlog] = t
                 log_comp[nlog] = comp
                 log_kind[nlog] = 2
@@ -988,7 +987,7 @@ def radau_integrate(t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main
                 m_prev[i] = m[i]
             for i in range(n_tot):
                 ysave[i] = y[i]
-            cnt = system_at_time(t, y, p, m, d, w, comp_scratch)
+            cnt = at_time_fn(t, y, p, m, d, w, comp_scratch)
             for i in range(cnt):
                 log_t[nlog] = t
                 log_comp[nlog] = comp_scratch[i]
@@ -1005,12 +1004,12 @@ def radau_integrate(t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main
                     ti[radau_I_EXT] = 0
                     break
         ti[radau_I_NLOG] = nlog
-        st = radau_make_consistent(t, y, p, m, d, w, n, alg, n_alg, atol, rtol, nominal,
+        st = radau_make_consistent(rhs_fn, t, y, p, m, d, w, n, alg, n_alg, atol, rtol, nominal,
                                    jac, lu_a, piv, f0, ftmp, dz, y_fail, tf, ti, stats)
         if st != 0:
             tf[radau_F_T] = t
             return st
         if n_ev > 0:
-            system_events(t, y, p, m, d, w, g_old)
+            events_fn(t, y, p, m, d, w, g_old)
             stats[radau_S_EVENT_FN] += 1
-        tf[radau_F_TN] = system_next_time(t, p, m, d)
+        tf[radau_F_TN] = next_time_fn(t, p, m, d)

@@ -3,7 +3,7 @@
 :func:`compile_standalone` takes right-hand sides and event functions written
 as plain Python functions in the numba subset, generates a small module that
 defines the ``system_*`` functions of the :class:`~emsim.assembly.problem.Problem`
-contract around them, appends :func:`emsim.solvers.compiled.kernel_source` and
+contract around them, exports them as callbacks (:func:`emsim.solvers.abi.export_source`) and
 loads it with :func:`emsim.assembly.compile.load_generated`. The integrator
 compiled this way is byte for byte the one assembled systems use.
 
@@ -40,7 +40,7 @@ import numpy as np
 
 from ..assembly.compile import load_generated
 from ..assembly.problem import Problem
-from .compiled import kernel_source
+from .abi import export_source
 
 
 def _locate(fn, role):
@@ -163,7 +163,7 @@ def compile_standalone(rhs, y0, *, n_main=None, mass=None, events=None, directio
     else:
         lines += block("system_record(t, y, p, m, d, w, row)",
                        body("record", ["t", "y", "row"], ["t", "y", *pmd, "row"]))
-    source = "\n".join(lines) + "\n" + kernel_source()
+    source = "\n".join(lines) + "\n" + export_source()
     label = name or getattr(getattr(rhs, "py_func", rhs), "__name__", "system")
     module = load_generated(f"standalone_{label}", source, extra_key="\0".join(keys))
 

@@ -1,0 +1,60 @@
+"""The binary interface between a generated system module and the compiled integrator.
+
+Each generated module defines the ``system_*`` functions as ordinary jitted
+functions and exports them as C callbacks (``numba.cfunc``) with the fixed
+signatures below. The integrator takes those callbacks as first-class function
+arguments, so it is compiled and cached ONCE for every system (its argument
+types are these signatures, not the particular functions), while each new
+system structure compiles only its own small functions.
+"""
+from __future__ import annotations
+
+from numba import types
+
+_f8 = types.float64
+_i8 = types.int64
+_A = types.Array(types.float64, 1, "C")
+_I = types.Array(types.int64, 1, "C")
+
+#: Order in which the callbacks are passed to ``radau_integrate``.
+ORDER = ("rhs", "quad", "events", "on_event", "next_time", "at_time", "start", "record")
+
+SIGNATURES = {
+    "rhs": types.void(_f8, _A, _A, _I, _A, _A, _A),
+    "quad": types.void(_f8, _A, _A, _I, _A, _A, _A),
+    "events": types.void(_f8, _A, _A, _I, _A, _A, _A),
+    "on_event": types.int64(_i8, _f8, _A, _A, _I, _A, _A),
+    "next_time": types.float64(_f8, _A, _I, _A),
+    "at_time": types.int64(_f8, _A, _A, _I, _A, _A, _I),
+    "start": types.void(_f8, _A, _A, _I, _A, _A),
+    "record": types.void(_f8, _A, _A, _I, _A, _A, _A),
+}
+
+
+ARGS = {
+    "rhs": "t, y, p, m, d, w, dy",
+    "quad": "t, y, p, m, d, w, dq",
+    "events": "t, y, p, m, d, w, g",
+    "on_event": "k, t, y, p, m, d, w",
+    "next_time": "t, p, m, d",
+    "at_time": "t, y, p, m, d, w, log",
+    "start": "t, y, p, m, d, w",
+    "record": "t, y, p, m, d, w, row",
+}
+
+
+def export_source() -> str:
+    """Lines a generated module appends to export its ``system_*`` functions as callbacks."""
+    lines = ["", "from emsim.solvers.abi import SIGNATURES as _abi_signatures",
+             "import numba as _abi_numba", ""]
+    for name, args in ARGS.items():
+        # a thin Python-level wrapper: numba's cache needs a plain function, not a dispatcher
+        lines += [f"def _abi_{name}({args}):",
+                  f"    return system_{name}({args})",
+                  f"cb_{name} = _abi_numba.cfunc(_abi_signatures[{name!r}], cache=True)(_abi_{name})", ""]
+    return "\n".join(lines) + "\n"
+
+
+def callbacks(module) -> tuple:
+    """The exported callbacks of a generated module, in :data:`ORDER`."""
+    return tuple(getattr(module, f"cb_{name}") for name in ORDER)
