@@ -1,0 +1,108 @@
+"""A lossy gear between a DC motor and a constant-torque load, motoring and back-driven.
+
+Outside references (common practice: gear reflection with efficiency, by direction of power flow):
+- motoring (power flows motor -> load): motor torque = T_load / (N eta), so the
+  armature current is T_load / (N eta k) at steady state;
+- back-driven (an overhauling load drives the motor, which generates into the source):
+  the torque reaching the motor is T_load eta / N;
+- steady state of a DC motor with no viscous friction: V = R i + k w (armature equation,
+  Ogata / Nise ch. 2, from memory), so w_motor = (V - R i) / k;
+- a load inertia J behind a lossless gear of ratio N acts on the motor as J / N^2 and a
+  load torque T as T / N (reflection, common practice): the motor current must be the
+  same, sample for sample, as with those reflected values placed directly on the motor shaft.
+"""
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from helpers import MOTOR, V_SUPPLY, build_dc_motor, build_geared_drive, run, solver_params, tol
+
+R, K = MOTOR["resistance"], MOTOR["torque_constant"]
+N, ETA, T_LOAD, J_LOAD, J_ROTOR = 10.0, 0.8, 2.0, 0.05, 1e-3
+# Mechanical time constant ~ (J_rotor + J_load/(N^2 eta)) R / k^2 ~ 0.16 s, electrical L/R = 0.05 s:
+# after 6 s the transient is below e^-37, far under the solver error.
+T_END = 6.0
+
+_runs: dict = {}
+
+
+@pytest.fixture(scope="module", **solver_params())
+def solver(request):
+    return request.param
+
+
+def cached(key, solver, build, t_end=T_END, out_dt=0.01):
+    k = (key, id(solver))
+    if k not in _runs:
+        _runs[k] = run(build(), t_end, solver, out_dt)
+    return _runs[k]
+
+
+def test_motoring_motor_torque_is_load_over_n_eta(solver):
+    r = cached("motoring", solver, lambda: build_geared_drive(ratio=N, efficiency=ETA, load_torque=T_LOAD,
+                                                                load_inertia=J_LOAD, rotor_inertia=J_ROTOR))
+    t_ref = T_LOAD / (N * ETA)   # common practice
+    i_ref = t_ref / K
+    w_ref = (V_SUPPLY - R * i_ref) / K
+    et = abs(r["motor.torque"][-1] - t_ref) / t_ref
+    ei = abs(r["motor.current"][-1] - i_ref) / i_ref
+    ew = abs(r["rotor.speed"][-1] - w_ref) / w_ref
+    print(f"motoring: motor torque {r['motor.torque'][-1]:.9f} vs T/(N eta) = {t_ref} (rel {et:.2e}); "
+          f"current rel {ei:.2e}; speed {r['rotor.speed'][-1]:.6f} vs {w_ref} (rel {ew:.2e}); "
+          f"power-flow mode {r['gear.mode.power_flow'][-1]:g}")
+    assert et < tol(solver)   # steady state: only the solver's global error remains
+    assert ei < tol(solver)
+    assert ew < tol(solver)
+    # and not the lossless or the wrongly-applied value (they differ by 25 % and 36 %)
+    assert abs(r["motor.torque"][-1] - T_LOAD * ETA / N) > 0.3 * t_ref
+
+
+def test_back_driven_motor_torque_is_load_eta_over_n(solver):
+    r = cached("overhauling", solver, lambda: build_geared_drive(ratio=N, efficiency=ETA, load_torque=-T_LOAD,
+                                                                   load_inertia=J_LOAD, rotor_inertia=J_ROTOR))
+    t_ref = -T_LOAD * ETA / N    # the load drives: the motor brakes with T eta / N (common practice)
+    i_ref = t_ref / K            # negative: the motor generates into the source
+    w_ref = (V_SUPPLY - R * i_ref) / K  # above the no-load speed V/k
+    et = abs(r["motor.torque"][-1] - t_ref) / abs(t_ref)
+    ei = abs(r["motor.current"][-1] - i_ref) / abs(i_ref)
+    ew = abs(r["rotor.speed"][-1] - w_ref) / w_ref
+    print(f"back-driven: motor torque {r['motor.torque'][-1]:.9f} vs -T eta/N = {t_ref} (rel {et:.2e}); "
+          f"current rel {ei:.2e}; speed rel {ew:.2e}; events {list(r.events['time'])}")
+    assert et < tol(solver)
+    assert ei < tol(solver)
+    assert ew < tol(solver)
+    assert r["motor.current"][-1] < 0 and r["src.power"][-1] < 0  # power flows back into the source
+    # Power flow through the gear: at t = 0 the armature current is 0, so the overhauling load drives
+    # (back-driven); while the current is high the motor drives (motoring); once the motor passes its
+    # no-load speed V/k the load drives again. So: two power-flow events of the gear, and the final
+    # mode is the start mode and differs from the steady motoring run's mode.
+    modes = r["gear.mode.power_flow"]
+    motoring = _runs.get(("motoring", id(solver)))
+    gear_events = [c for c in r.events["component"] if c == "gear"]
+    print(f"back-driven: power-flow mode start {modes[0]:g}, end {modes[-1]:g}; gear events {len(gear_events)}")
+    assert len(gear_events) == 2
+    assert modes[0] == modes[-1]
+    if motoring is not None:
+        assert modes[-1] != motoring["gear.mode.power_flow"][-1]
+
+
+def test_gear_and_reflected_inertia_give_the_same_current(solver):
+    geared = cached("lossless", solver, lambda: build_geared_drive(
+        ratio=N, efficiency=1.0, load_torque=T_LOAD, load_inertia=J_LOAD, rotor_inertia=J_ROTOR), 1.0, 1e-3)
+    direct = cached("reflected", solver, lambda: build_dc_motor(
+        inertia=J_ROTOR + J_LOAD / N ** 2, viscous=0.0, load_torque=T_LOAD / N), 1.0, 1e-3)
+    i_g, i_d = geared["motor.current"], direct["motor.current"]
+    assert np.array_equal(geared.time, direct.time)
+    err = np.max(np.abs(i_g - i_d)) / np.max(np.abs(i_d))
+    werr = np.max(np.abs(geared["rotor.speed"] - direct["rotor.speed"])) / np.max(direct["rotor.speed"])
+    print(f"gear + J_load vs J_load/N^2 on the motor: current max rel diff {err:.2e}, speed {werr:.2e}")
+    # two runs of the same ODE, each within the global error bound of the exact solution
+    assert err < 2 * tol(solver)
+    assert werr < 2 * tol(solver)
+    # (they can even agree bit for bit: it is the same arithmetic; a 1e-6 change of the reflected
+    # inertia moved the current by 1.5e-6 A when this test was written, so the comparison is live)
+    assert np.ptp(i_g) > 1.0  # a real transient, not two flat lines
+    # the gear's kinematics on the way: w_motor = N w_load (common practice)
+    kin = np.max(np.abs(geared["rotor.speed"] - N * geared["gear.output.speed"])) / np.max(geared["rotor.speed"])
+    assert kin < 1e-12  # an exact relation of the rigid group: round-off only
