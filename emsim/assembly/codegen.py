@@ -61,7 +61,7 @@ def generate(st: Structure, lay: Layout) -> tuple[str, list[str], list[str], str
         src(f"_cls{i} = resolve_class({cls.__module__!r}, {cls.__qualname__!r})")
         for name in KERNELS:
             if getattr(cls, name) is not None:
-                src(f"k{i}_{name} = nb.njit(_cls{i}.{name})")
+                src(f"k{i}_{name} = nb.njit(inline=\"always\")(_cls{i}.{name})")
     src()
 
     def kern(ci, name):
