@@ -74,6 +74,10 @@ class SampledPISpeed(Component):
         s[0] = d[1]
 
     @staticmethod
+    def jacobian(t, x, a, u, p, m, d, jx, ja):
+        pass  # an ideal sensor takes no torque; the command is held between samples
+
+    @staticmethod
     def monitor(t, x, a, f, u, p, m, d, out):
         out[0] = u[0] - a[0]
 

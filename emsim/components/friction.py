@@ -75,6 +75,14 @@ def friction_torque(mode, w, coulomb, hold):
 
 
 @numba.njit(cache=True, inline="always")
+def friction_slope(mode, hold):
+    """d(friction torque)/d(speed), N*m*s/rad: zero while slipping, the hold coefficient while stuck."""
+    if mode == STUCK:
+        return hold
+    return 0.0
+
+
+@numba.njit(cache=True, inline="always")
 def speed_zero_value(mode, w, breakaway):
     """Event 0 (``speed_zero``) value: the speed while slipping, an inactive 1.0 otherwise."""
     if breakaway <= 0.0 or mode == STUCK:

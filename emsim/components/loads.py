@@ -39,6 +39,10 @@ class ConstantTorque(Component):
         f[0] = p[0]
 
     @staticmethod
+    def jacobian(t, x, a, u, p, m, d, jx, ja):
+        pass  # constant torque: every partial derivative is zero
+
+    @staticmethod
     def monitor(t, x, a, f, u, p, m, d, out):
         out[0] = p[0] * a[0]
 
@@ -85,6 +89,10 @@ class FanLoad(Component):
     @staticmethod
     def equations(t, x, a, u, p, m, d, dx, f, s):
         f[0] = p[0] * a[0] * abs(a[0])
+
+    @staticmethod
+    def jacobian(t, x, a, u, p, m, d, jx, ja):
+        ja[0, 0] = 2.0 * p[0] * abs(a[0])
 
     @staticmethod
     def monitor(t, x, a, f, u, p, m, d, out):
@@ -138,6 +146,17 @@ class TableTorque(Component):
             w0 = p[j]
             w1 = p[1 + j]
             f[0] = p[1 + n + j] + (p[2 + n + j] - p[1 + n + j]) * (w - w0) / (w1 - w0)
+
+    @staticmethod
+    def jacobian(t, x, a, u, p, m, d, jx, ja):
+        n = int(p[0])
+        w = a[0]
+        if n < 2 or w <= p[1] or w >= p[n]:
+            return  # flat beyond the ends
+        j = 1
+        while j < n - 1 and p[1 + j] <= w:
+            j += 1
+        ja[0, 0] = (p[2 + n + j] - p[1 + n + j]) / (p[1 + j] - p[j])
 
     @staticmethod
     def monitor(t, x, a, f, u, p, m, d, out):

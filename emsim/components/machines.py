@@ -8,7 +8,7 @@ from ..model.component import Component
 from ..model.declarations import Energy, Event, Output, Param, Port, State
 from ..units import to_si
 from . import friction as _fr
-from .friction import breakaway_value, friction_torque, initial_mode, mode_after_event, speed_zero_value
+from .friction import breakaway_value, friction_slope, friction_torque, initial_mode, mode_after_event, speed_zero_value
 
 
 class DCMotor(Component):
@@ -94,6 +94,16 @@ class DCMotor(Component):
         dx[0] = (a[0] - p[0] * i - p[2] * w) / p[1]
         f[0] = i
         f[1] = -(p[2] * i - p[4] * w - friction_torque(m[0], w, p[5], p[8]))
+
+    @staticmethod
+    def jacobian(t, x, a, u, p, m, d, jx, ja):
+        # rows: di/dt, f_armature, f_shaft; columns: current | voltage, speed
+        jx[0, 0] = -p[0] / p[1]
+        ja[0, 0] = 1.0 / p[1]
+        ja[0, 1] = -p[2] / p[1]
+        jx[1, 0] = 1.0
+        jx[2, 0] = -p[2]
+        ja[2, 1] = p[4] + friction_slope(m[0], p[8])
 
     @staticmethod
     def monitor(t, x, a, f, u, p, m, d, out):

@@ -6,7 +6,7 @@ import math
 from ..model.component import Component
 from ..model.declarations import Energy, Event, Output, Param, Port, RigidCoupling, State
 from . import friction as _fr
-from .friction import breakaway_value, friction_torque, initial_mode, mode_after_event, speed_zero_value
+from .friction import breakaway_value, friction_slope, friction_torque, initial_mode, mode_after_event, speed_zero_value
 
 
 class Inertia(Component):
@@ -39,6 +39,10 @@ class Inertia(Component):
     def monitor(t, x, a, f, u, p, m, d, out):
         out[0] = 0.5 * p[0] * a[0] * a[0]
 
+    @staticmethod
+    def jacobian(t, x, a, u, p, m, d, jx, ja):
+        pass  # the inertia is the node's capacity; the component itself takes no torque
+
 
 class Damper(Component):
     """Viscous damper from a shaft to ground (the frame): torque ``c*w``.
@@ -61,6 +65,10 @@ class Damper(Component):
     @staticmethod
     def equations(t, x, a, u, p, m, d, dx, f, s):
         f[0] = p[0] * a[0]
+
+    @staticmethod
+    def jacobian(t, x, a, u, p, m, d, jx, ja):
+        ja[0, 0] = p[0]
 
     @staticmethod
     def monitor(t, x, a, f, u, p, m, d, out):
@@ -108,6 +116,10 @@ class Gearbox(Component):
         f[0] = 0.0
         f[1] = 0.0
 
+    @staticmethod
+    def jacobian(t, x, a, u, p, m, d, jx, ja):
+        pass  # the coupling is handled by assembly; no torque of its own
+
 
 class CompliantShaft(Component):
     """Torsionally elastic shaft between two rotating parts (spring and damper in parallel).
@@ -151,6 +163,18 @@ class CompliantShaft(Component):
         torque = p[0] * x[0] + p[1] * slip
         f[0] = torque
         f[1] = -torque
+
+    @staticmethod
+    def jacobian(t, x, a, u, p, m, d, jx, ja):
+        # rows: d(twist)/dt, f_a, f_b; columns: twist | w_a, w_b
+        ja[0, 0] = 1.0
+        ja[0, 1] = -1.0
+        jx[1, 0] = p[0]
+        ja[1, 0] = p[1]
+        ja[1, 1] = -p[1]
+        jx[2, 0] = -p[0]
+        ja[2, 0] = -p[1]
+        ja[2, 1] = p[1]
 
     @staticmethod
     def monitor(t, x, a, f, u, p, m, d, out):
@@ -212,6 +236,10 @@ class CoulombFriction(Component):
     @staticmethod
     def equations(t, x, a, u, p, m, d, dx, f, s):
         f[0] = friction_torque(m[0], a[0], p[0], p[4]) + p[3] * a[0]
+
+    @staticmethod
+    def jacobian(t, x, a, u, p, m, d, jx, ja):
+        ja[0, 0] = friction_slope(m[0], p[4]) + p[3]
 
     @staticmethod
     def monitor(t, x, a, f, u, p, m, d, out):

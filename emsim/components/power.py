@@ -39,6 +39,15 @@ class AveragedBridge(Component):
         f[1] = -x[0]
 
     @staticmethod
+    def jacobian(t, x, a, u, p, m, d, jx, ja):
+        # rows: residual, f_bus, f_armature; the duty is held between samples (no y dependence)
+        duty = min(max(u[0], -1.0), 1.0)
+        ja[0, 0] = -duty
+        ja[0, 1] = 1.0
+        jx[1, 0] = duty
+        jx[2, 0] = -1.0
+
+    @staticmethod
     def monitor(t, x, a, f, u, p, m, d, out):
         duty = min(max(u[0], -1.0), 1.0)
         out[0] = duty

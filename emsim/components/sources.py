@@ -58,6 +58,12 @@ class SwitchedDCSource(Component):
         f[0] = -x[0]
 
     @staticmethod
+    def jacobian(t, x, a, u, p, m, d, jx, ja):
+        # rows: residual, f_terminal; columns: current | terminal voltage
+        ja[0, 0] = 1.0
+        jx[1, 0] = -1.0
+
+    @staticmethod
     def monitor(t, x, a, f, u, p, m, d, out):
         out[0] = a[0] * x[0]
 
@@ -161,6 +167,16 @@ class Battery(Component):
         i = (voc - a[0]) / p[1]
         dx[0] = -i / p[2]
         f[0] = -i
+
+    @staticmethod
+    def jacobian(t, x, a, u, p, m, d, jx, ja):
+        # i = (voc(soc) - v)/R: di/dsoc = voltage_per_soc/R, di/dv = -1/R
+        di_dsoc = p[3] / p[1]
+        di_dv = -1.0 / p[1]
+        jx[0, 0] = -di_dsoc / p[2]
+        ja[0, 0] = -di_dv / p[2]
+        jx[1, 0] = -di_dsoc
+        ja[1, 0] = -di_dv
 
     @staticmethod
     def monitor(t, x, a, f, u, p, m, d, out):

@@ -29,9 +29,16 @@ Contract for a component class (numbered, like the rules of a solver):
    ``sample_period`` seconds from the start if that names a parameter, else at
    the instants ``next_time(t, p, m, d)`` returns (strictly after ``t``,
    ``inf`` for none).
-4. Kernels allocate nothing and call only numpy/math functions numba supports.
+4. Optionally ``jacobian(t, x, a, u, p, m, d, jx, ja)`` gives the partial
+   derivatives of the outputs of ``equations``: rows are ``dx`` then ``f`` (one
+   per port), ``jx`` columns the own states ``x``, ``ja`` columns the ports'
+   across variables ``a``. Both arrays arrive zeroed; write the non-zeros. Signal
+   inputs count as held (no dependence on the states). A system whose every
+   component supplies this kernel gets an analytic Jacobian; otherwise the solver
+   uses compiled finite differences.
+5. Kernels allocate nothing and call only numpy/math functions numba supports.
    They must be importable (defined at module level in a real module).
-5. Python-side checks go in ``check(self, values)`` (raise ParameterError naming
+6. Python-side checks go in ``check(self, values)`` (raise ParameterError naming
    the parameter) and derived values in ``derive(self, values) -> dict``; both
    run once, at construction.
 """
@@ -84,6 +91,7 @@ class Component:
     at_time = None
     next_time = None
     start = None
+    jacobian = None
 
     def __init_subclass__(cls, **kwargs):
         super().__init_subclass__(**kwargs)

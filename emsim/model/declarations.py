@@ -177,4 +177,4 @@ class Energy:
     stored: tuple = ()
 
 
-KERNELS = ("equations", "monitor", "event_values", "on_event", "at_time", "next_time", "start")
+KERNELS = ("equations", "monitor", "event_values", "on_event", "at_time", "next_time", "start", "jacobian")

@@ -69,6 +69,10 @@ class HoistDrum(Component):
         f[0] = p[0] * p[3] * p[1]
 
     @staticmethod
+    def jacobian(t, x, a, u, p, m, d, jx, ja):
+        ja[0, 0] = p[1]  # d(height)/dt = r * w; the gravity torque is constant
+
+    @staticmethod
     def monitor(t, x, a, f, u, p, m, d, out):
         out[0] = p[1] * a[0]
         out[1] = p[0] * p[3] * p[1] * a[0]
