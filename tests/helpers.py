@@ -146,11 +146,12 @@ def build_torsion(*, j1=0.02, j2=0.05, k=200.0, damping=0.0, twist0=0.0, w1=0.0,
     return s
 
 
-def build_geared_torsion(*, j1=0.002, ratio=4.0, j2=0.05, k=200.0, twist0=0.0, w_out=0.0):
+def build_geared_torsion(*, j1=0.002, ratio=4.0, j2=0.05, k=200.0, damping=0.0, twist0=0.0, w_out=0.0):
     """Inertia j1 -> rigid gear (input/output = ratio, lossless) -> compliant shaft -> inertia j2."""
     s = emsim.System("geared_torsion")
     s.add(Inertia("j1", inertia=j1), Gearbox("gear", ratio=ratio),
-          CompliantShaft("shaft", stiffness=k, initial={"twist": twist0}), Inertia("j2", inertia=j2))
+          CompliantShaft("shaft", stiffness=k, damping=damping, initial={"twist": twist0}),
+          Inertia("j2", inertia=j2))
     s.connect("j1.shaft", "gear.input", name="fast")
     s.connect("gear.output", "shaft.a", name="slow")
     s.connect("shaft.b", "j2.shaft", name="side2")
@@ -197,7 +198,7 @@ CATALOGUE = {
     "dc_motor_switching": (lambda: build_dc_motor(switching=[(0.0, 12.0), (0.1, 0.0), (0.2, 6.0)]), 0.3, 1e-3),
     "battery_motor": (lambda: build_battery_motor(), 2.0, 0.01),
     "torsion": (lambda: build_torsion(damping=0.05, twist0=0.01, w1=3.0), 1.0, 1e-3),
-    "geared_torsion": (lambda: build_geared_torsion(twist0=0.01), 1.0, 1e-3),
+    "geared_torsion": (lambda: build_geared_torsion(damping=0.02, twist0=0.01, w_out=2.0), 1.0, 1e-3),
     "geared_drive_motoring": (lambda: build_geared_drive(), 2.0, 0.01),
     "geared_drive_overhauling": (lambda: build_geared_drive(load_torque=-2.0), 2.0, 0.01),
     "geared_drive_lossless": (lambda: build_geared_drive(efficiency=1.0), 2.0, 0.01),

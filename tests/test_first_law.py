@@ -1,0 +1,47 @@
+"""First law on every catalogue system and every solver.
+
+Outside reference: the first law of thermodynamics for the drive as a closed system,
+energy supplied = energy dissipated + energy delivered to external processes + change of
+stored (magnetic, kinetic, elastic) energy (any thermodynamics text). The audit's terms
+are integrated by the run itself, so the bound is tied to the solver tolerance
+(helpers.first_law_ok: 1e3 * rtol).
+"""
+from __future__ import annotations
+
+import pytest
+
+from helpers import CATALOGUE, SOLVERS, SOLVER_IDS, first_law_ok, run
+
+
+@pytest.mark.parametrize("solver", SOLVERS, ids=SOLVER_IDS)
+@pytest.mark.parametrize("name", sorted(CATALOGUE))
+def test_energy_balance(name, solver):
+    build, t_end, out_dt = CATALOGUE[name]
+    r = run(build(), t_end, solver, out_dt)
+    e = r.energy
+    rel = first_law_ok(r, solver.rtol)
+    print(f"{name}: supplied {e['supplied']:.6g} J, loss {e['loss']:.6g}, delivered {e['delivered']:.6g}, "
+          f"stored change {e['stored_change']:.6g}; relative residual {rel:.2e}")
+    # a balance that is trivially zero would prove nothing: every catalogue run moves energy
+    assert max(abs(e["supplied"]), abs(e["loss"]), abs(e["stored_change"])) > 1e-3
+
+
+def stored_energy_scale(r):
+    """The largest stored energy seen during the run, J."""
+    return float(max(abs(r["energy.stored"]).max(), 1e-30))
+
+
+@pytest.mark.xfail(strict=True, reason=(
+    "emsim/run.py _Audit.summary scales the residual by max(|supplied|, |loss|+|delivered|+|stored_change|): "
+    "for a conservative system (no supply, no loss) every term is ~0 and a round-off residual of 1e-11 J "
+    "reports relative_residual = 1.0; the scale should include the stored energy itself"))
+def test_conservative_system_reports_a_small_relative_residual():
+    from helpers import build_torsion
+    solver = SOLVERS[0]
+    r = run(build_torsion(twist0=0.01), 1.0, solver, 1e-3)
+    e = r.energy
+    # the physics is right: the residual is round-off against the 0.01 J stored in the spring
+    assert abs(e["residual"]) < 1e3 * solver.rtol * stored_energy_scale(r)
+    print(f"conservative torsion: residual {e['residual']:.2e} J, stored {stored_energy_scale(r):.3g} J, "
+          f"reported relative residual {e['relative_residual']:.3g}")
+    first_law_ok(r, solver.rtol)
