@@ -96,7 +96,9 @@ class _Audit:
         delivered = g(self.last, "energy.delivered") - g(self.first, "energy.delivered")
         stored = g(self.last, "energy.stored") - g(self.first, "energy.stored")
         residual = supplied - loss - delivered - stored
-        scale = max(abs(supplied), abs(loss) + abs(delivered) + abs(stored), 1e-30)
+        # scale by the largest energy in play, including what is stored (a conservative system has no flows)
+        scale = max(abs(supplied), abs(loss) + abs(delivered) + abs(stored),
+                    abs(g(self.first, "energy.stored")), abs(g(self.last, "energy.stored")), 1e-30)
         return {"supplied": supplied, "loss": loss, "delivered": delivered, "stored_change": stored,
                 "residual": residual, "relative_residual": abs(residual) / scale}
 

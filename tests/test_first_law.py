@@ -31,10 +31,6 @@ def stored_energy_scale(r):
     return float(max(abs(r["energy.stored"]).max(), 1e-30))
 
 
-@pytest.mark.xfail(strict=True, reason=(
-    "emsim/run.py _Audit.summary scales the residual by max(|supplied|, |loss|+|delivered|+|stored_change|): "
-    "for a conservative system (no supply, no loss) every term is ~0 and a round-off residual of 1e-11 J "
-    "reports relative_residual = 1.0; the scale should include the stored energy itself"))
 def test_conservative_system_reports_a_small_relative_residual():
     from helpers import build_torsion
     solver = SOLVERS[0]
