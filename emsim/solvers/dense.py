@@ -21,8 +21,12 @@ def lu_factor(a, piv, n):
     """LU factorisation with partial (row) pivoting of ``a[:n, :n]``, in place.
 
     On return the strict lower triangle holds the multipliers (unit diagonal
-    implied), the upper triangle holds U and ``piv[k]`` is the row swapped with
-    row ``k`` at elimination step ``k``. Works for float64 and complex128.
+    implied), the strict upper triangle holds U, the diagonal holds the
+    *reciprocals* of U's diagonal (so :func:`lu_solve` multiplies instead of
+    dividing: a division, complex ones above all, costs many multiplications
+    and sits on the critical path of the substitution) and ``piv[k]`` is the
+    row swapped with row ``k`` at elimination step ``k``. Works for float64
+    and complex128.
 
     Returns 0 on success, else ``1 + k`` for the first column ``k`` whose pivot
     is exactly zero (the factorisation still completes; solving is meaningless).
@@ -53,6 +57,7 @@ def lu_factor(a, piv, n):
             if lik != 0.0:
                 for j in range(k + 1, n):
                     a[i, j] -= lik * a[k, j]
+        a[k, k] = inv
     return info
 
 
@@ -74,7 +79,7 @@ def lu_solve(lu, piv, b, n):
         s = b[i]
         for j in range(i + 1, n):
             s -= lu[i, j] * b[j]
-        b[i] = s / lu[i, i]
+        b[i] = s * lu[i, i]
 
 
 @njit(cache=True)
