@@ -27,7 +27,8 @@ where noted)::
         opt,          # float64[8]: rtol, event_tol, max_step, out_t0, out_dt,
                       #             fixed step (0 = adaptive), h0 (0 = automatic), unused
         iopt,         # int64[4]:  max_events_at_instant, max_steps (0 = no limit),
-                      #            call system_start on the first call (1) or not (0), unused
+                      #            call system_start on the first call (1) or not (0),
+                      #            check event functions at the stage points too (1) or not (0)
         buf,          # float64[rows, n_record]    output rows, filled from ti[1]
         buf_t,        # float64[rows]              their times
         log_t, log_comp, log_kind, log_index,   # event log: time, component, kind (1 time,
@@ -45,9 +46,15 @@ where noted)::
         g_old,        # float64[n_events]          event functions at the current state
         qd,           # float64[3, n_main+n_quad]  collocation polynomial of the last step
         y_fail,       # float64[n_main + n_quad]   state where a non-finite value appeared
-        stats)        # int64[10]: steps, rejected, rhs evaluations, Jacobians, LU
+        stats,        # int64[10]: steps, rejected, rhs evaluations, Jacobians, LU
                       #   factorisations, Newton iterations, time events, state events,
                       #   event-function evaluations, quadrature evaluations
+        scratch)      # tuple from radau_scratch(n_main, n_tot, n_events, n_modes): work
+                      #   arrays allocated once by the driver (contents not kept)
+
+The kernel works on borrowed views of all these arrays (no reference
+counting in the step loop), so the driver must keep every one of them alive
+until the call returns (it does: they are attributes of the run).
 
 On the first call (``ti[3] == 0``) the kernel calls ``system_start`` only when
 ``iopt[2] == 1``, then makes the algebraic rows consistent, evaluates the event
@@ -73,7 +80,7 @@ import numpy as np
 from ..errors import SolverError
 from . import abi
 from .base import Solver
-from .radau_kernel import radau_integrate
+from .radau_kernel import radau_integrate, radau_scratch
 
 STATUS_TEXT = {
     -1: "step size too small",
@@ -105,13 +112,19 @@ class Radau5(Solver):
         ``1000 * event_tol * max(1, |t|)`` is reported as chattering.
     event_tol : relative tolerance of located state-event times.
     max_steps : stop with an error after this many steps (0: no limit).
+    event_stage_checks : also evaluate the event functions at the first two
+        stage points of every step (default False: only at the step end, the
+        step start being known). With the checks, a function that crosses zero
+        and comes back inside one step is still seen when a stage point falls
+        between the crossings, at two more event-function evaluations per step;
+        without them such a double crossing needs a ``max_step`` to be seen.
     """
 
     name = "radau5"
 
     def __init__(self, *, rtol=1e-6, atol_scale=None, h0=None, max_step=math.inf, fixed_step=None,
                  batch_rows=4096, event_log_size=4096, max_events_at_instant=50, event_tol=1e-12,
-                 max_steps=0):
+                 max_steps=0, event_stage_checks=False):
         if not (0.0 < rtol < 1.0):
             raise ValueError(f"Radau5: rtol must lie in (0, 1), got {rtol!r}")
         if atol_scale is not None and not (atol_scale > 0.0 and math.isfinite(atol_scale)):
@@ -136,6 +149,7 @@ class Radau5(Solver):
         self.max_events_at_instant = int(max_events_at_instant)
         self.event_tol = float(event_tol)
         self.max_steps = int(max_steps)
+        self.event_stage_checks = bool(event_stage_checks)
 
     def settings(self) -> dict:
         return {
@@ -144,7 +158,7 @@ class Radau5(Solver):
             "max_step": self.max_step, "fixed_step": self.fixed_step,
             "batch_rows": self.batch_rows, "event_log_size": self.event_log_size,
             "max_events_at_instant": self.max_events_at_instant, "event_tol": self.event_tol,
-            "max_steps": self.max_steps,
+            "max_steps": self.max_steps, "event_stage_checks": self.event_stage_checks,
         }
 
     def start(self, problem, *, out_dt: float, out_t0: float | None = None) -> "RadauRun":
@@ -220,7 +234,8 @@ class RadauRun:
                              t0 if out_t0 is None else float(out_t0), float(out_dt),
                              solver.fixed_step or 0.0, solver.h0 or 0.0, 0.0])
         call_start = 0 if getattr(problem, "start_applied", True) else 1
-        self.iopt = np.array([solver.max_events_at_instant, solver.max_steps, call_start, 0], dtype=np.int64)
+        self.iopt = np.array([solver.max_events_at_instant, solver.max_steps, call_start,
+                              int(solver.event_stage_checks)], dtype=np.int64)
         n_rec = int(problem.n_record)
         self.buf = np.zeros((solver.batch_rows, n_rec))
         self.buf_t = np.zeros(solver.batch_rows)
@@ -244,6 +259,7 @@ class RadauRun:
         self.qd = np.zeros((3, n_tot))
         self.y_fail = np.zeros(n_tot)
         self.stats_array = np.zeros(10, dtype=np.int64)
+        self.scratch = radau_scratch(n_main, n_tot, n_ev, self.m.shape[0])
 
     @property
     def t(self) -> float:
@@ -266,7 +282,7 @@ class RadauRun:
                 self.event_dir, self.n_main, self.opt, self.iopt, self.buf, self.buf_t,
                 self.log_t, self.log_comp, self.log_kind, self.log_index, self.comp_scratch,
                 self.tf, self.ti, self.jac, self.lu_r, self.lu_c, self.lu_a, self.piv, self.f0,
-                self.g_old, self.qd, self.y_fail, self.stats_array)
+                self.g_old, self.qd, self.y_fail, self.stats_array, self.scratch)
             nr, nl = int(self.ti[1]), int(self.ti[2])
             if nr:
                 sink.rows(self.buf_t[:nr], self.buf[:nr])

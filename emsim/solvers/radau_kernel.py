@@ -40,9 +40,11 @@ Quadrature rows ``y[n_main:]`` are integrated by the same collocation formula
 are excluded from the error norm (they never feed back, so they cannot make a
 step fail; their accuracy follows that of the main rows).
 
-Event detection looks for sign changes between the step start, the first two
-stage points and the step end. A function that crosses zero and comes back
-between two of these check points is not seen; in particular after an event a
+Event detection looks for sign changes between the step start and the step
+end, and optionally (``iopt[3] = 1``, ``Radau5(event_stage_checks=True)``) at
+the first two stage points as well, at two more event-function evaluations
+per step. A function that crosses zero and comes back between two of these
+check points is not seen; in particular after an event a
 function left just past zero (the right end of the root bracket) re-arms only
 when it is seen on its original side again, so an accumulation of events in
 finite time (a bouncing ball coming to rest) may end unseen: model a rest
@@ -59,7 +61,10 @@ modes and discrete states that held during the step.
 import math as radau_math
 
 import numpy as radau_np
+from llvmlite import ir as radau_llvm
 from numba import njit as radau_njit
+from numba import types as radau_types
+from numba.extending import intrinsic as radau_intrinsic
 
 from emsim.solvers import dense as radau_dense
 
@@ -500,15 +505,15 @@ def radau_crossing(go, gn, direction):
 
 @radau_njit(cache=True)
 def radau_locate(events_fn, t_s, h_s, t_new, y_s, qd, p, m, d, w, g_old, g_st, g_new, event_dir, tol,
-                 yint, gtmp, ev_hit, ev_root, stats):
+                 stage_checks, yint, gtmp, ev_hit, ev_root, stats):
     """Earliest state event(s) in (t_s, t_new] on the dense output.
 
-    The event functions are known at the step start (``g_old``), at the first
-    two stage points ``t_s + c_i h`` (``g_st``) and at the step end
-    (``g_new``); for each function the first of these three sub-intervals with
-    a sign change of the watched direction is searched, so a function that
-    crosses and re-crosses zero inside a step is still caught when a stage
-    point falls between the crossings. The root is found by the Illinois
+    The event functions are known at the step start (``g_old``) and the step
+    end (``g_new``), and with ``stage_checks`` also at the first two stage
+    points ``t_s + c_i h`` (``g_st``); for each function the first of these
+    sub-intervals with a sign change of the watched direction is searched, so
+    with stage checks a function that crosses and re-crosses zero inside a
+    step is still caught when a stage point falls between the crossings. The root is found by the Illinois
     variant of regula falsi on the interpolant until the bracket is shorter
     than ``tol``; the right end is taken. Events whose roots lie within ``tol``
     of the earliest form one group (``ev_hit``), applied at the latest root of
@@ -527,6 +532,8 @@ def radau_locate(events_fn, t_s, h_s, t_new, y_s, qd, p, m, d, w, g_old, g_st, g
         gb = g_new[k]
         for sub in range(3):
             if sub < 2:
+                if not stage_checks:
+                    continue
                 tb = t_s + radau_C[sub] * h_s
                 gbs = g_st[sub, k]
             else:
@@ -586,17 +593,83 @@ def radau_locate(events_fn, t_s, h_s, t_new, y_s, qd, p, m, d, w, g_old, g_st, g
     return t_ev, count
 
 
+def radau_scratch(n_main, n_tot, n_events, n_modes):
+    """The kernel's scratch arrays (a tuple, passed as the last argument of ``radau_integrate``).
+
+    Allocated once by the driver, so a call that continues an integration
+    allocates nothing. Their contents do not carry over between calls.
+    """
+    n1 = max(n_main, 1)
+    e1 = max(n_events, 1)
+    vec = radau_np.zeros((6, n_tot))        # ys, ynew, yold, yint, ysave, sc
+    small = radau_np.zeros((5, n1))         # br, ftmp, err, zm, dz
+    return (radau_np.zeros((3, n_tot)),     # z: stage increments
+            radau_np.zeros((3, n1)),        # wt: transformed increments
+            radau_np.zeros((3, n1)),        # f: stage right-hand sides
+            radau_np.zeros((3, max(n_tot - n_main, 1))),  # fq: stage quadrature integrands
+            vec, small,
+            radau_np.zeros(n1, dtype=radau_np.complex128),  # bc
+            radau_np.zeros((5, e1)),        # g_new, gtmp, ev_root, g_st (2 rows)
+            radau_np.zeros(e1, dtype=radau_np.bool_),       # ev_hit
+            radau_np.zeros(max(n_modes, 1), dtype=radau_np.int64),  # m_prev
+            radau_np.zeros(n1, dtype=radau_np.int64))       # alg: algebraic row indices
+
+
+@radau_intrinsic
+def radau_borrow(typingctx, arr):
+    """A view of ``arr`` that does not own (reference-count) its memory.
+
+    Every array the step loop touches is such a view: numba otherwise
+    increments and decrements the reference count of each array argument at
+    every call of a helper or a system callback (atomic operations that cost
+    more than the arithmetic of a small system). Only for arrays that outlive
+    the call using the view: the driver's arrays, which it keeps until the
+    kernel returns. A borrowed view must never be returned or stored.
+    """
+    if not isinstance(arr, radau_types.Array):
+        return None
+
+    def codegen(context, builder, sig, args):
+        val = args[0]
+        val = builder.insert_value(val, radau_llvm.Constant(val.type.elements[0], None), 0)  # meminfo
+        val = builder.insert_value(val, radau_llvm.Constant(val.type.elements[1], None), 1)  # parent
+        return val
+
+    return arr(arr), codegen
+
+
 @radau_njit(cache=True)
 def radau_integrate(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
                     opt, iopt, buf, buf_t, log_t, log_comp, log_kind, log_index, comp_scratch,
-                    tf, ti, jac, lu_r, lu_c, lu_a, piv, f0, g_old, qd, y_fail, stats):
+                    tf, ti, jac, lu_r, lu_c, lu_a, piv, f0, g_old, qd, y_fail, stats, scratch):
     """Integrate from ``tf[F_T]`` towards ``t_end``; return a status code.
 
     See ``emsim/solvers/compiled.py`` for the meaning of every argument. The
     state (``y``, ``m``, ``d``, ``tf``, ``ti``, Jacobian, LU factors, ``f0``,
     ``g_old``, ``qd``, ``stats``) persists in the caller's arrays, so calling
-    again continues where this call stopped.
+    again continues where this call stopped. ``scratch`` is
+    :func:`radau_scratch`'s tuple. Every array is passed on as a borrowed
+    view (:func:`radau_borrow`): the caller keeps the arrays alive.
     """
+    zs, wts, fs, fqs, vec, small, bcs, evs, ev_hits, m_prevs, algs = scratch
+    b = radau_borrow
+    return radau_loop(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn,
+                      t_end, b(y), b(p), b(m), b(d), b(w), b(mass), b(atol), b(nominal), b(event_dir), n_main,
+                      b(opt), b(iopt), b(buf), b(buf_t), b(log_t), b(log_comp), b(log_kind), b(log_index),
+                      b(comp_scratch), b(tf), b(ti), b(jac), b(lu_r), b(lu_c), b(lu_a), b(piv), b(f0), b(g_old),
+                      b(qd), b(y_fail), b(stats),
+                      b(zs), b(wts), b(fs), b(fqs), b(vec[0]), b(vec[1]), b(vec[2]), b(vec[3]), b(vec[4]),
+                      b(vec[5]), b(small[0]), b(bcs), b(small[1]), b(small[2]), b(small[3]), b(small[4]),
+                      b(evs[0]), b(evs[3:5]), b(evs[1]), b(ev_hits), b(evs[2]), b(m_prevs), b(algs))
+
+
+@radau_njit(cache=True)
+def radau_loop(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
+               opt, iopt, buf, buf_t, log_t, log_comp, log_kind, log_index, comp_scratch,
+               tf, ti, jac, lu_r, lu_c, lu_a, piv, f0, g_old, qd, y_fail, stats,
+               z, wt, f, fq, ys, ynew, yold, yint, ysave, sc, br, bc, ftmp, err, zm, dz,
+               g_new, g_st, gtmp, ev_hit, ev_root, m_prev, alg):
+    """The step loop of :func:`radau_integrate` (all arrays borrowed views, scratch included)."""
     n = n_main
     n_tot = y.shape[0]
     n_quad = n_tot - n
@@ -612,37 +685,14 @@ def radau_integrate(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_ti
     fixed = h_fixed > 0.0
     max_at_instant = iopt[0]
     max_steps = iopt[1]
+    stage_checks = iopt[3] != 0
     fnewt = max(10.0 * radau_EPS / rtol, min(0.03, radau_math.sqrt(rtol)))
     maxit = 30 if fixed else radau_MAXIT
 
-    # ---- scratch, allocated once per call ----
-    z = radau_np.zeros((3, n_tot))
-    wt = radau_np.zeros((3, max(n, 1)))
-    f = radau_np.zeros((3, max(n, 1)))
-    fq = radau_np.zeros((3, max(n_quad, 1)))
-    ys = radau_np.empty(n_tot)
-    ynew = radau_np.empty(n_tot)
-    yold = radau_np.empty(n_tot)
-    yint = radau_np.empty(n_tot)
-    ysave = radau_np.empty(n_tot)
-    sc = radau_np.empty(n_tot)
-    br = radau_np.empty(max(n, 1))
-    bc = radau_np.empty(max(n, 1), dtype=radau_np.complex128)
-    ftmp = radau_np.empty(max(n, 1))
-    err = radau_np.empty(max(n, 1))
-    zm = radau_np.empty(max(n, 1))
-    dz = radau_np.empty(max(n, 1))
-    g_new = radau_np.empty(max(n_ev, 1))
-    g_st = radau_np.empty((2, max(n_ev, 1)))
-    gtmp = radau_np.empty(max(n_ev, 1))
-    ev_hit = radau_np.zeros(max(n_ev, 1), dtype=radau_np.bool_)
-    ev_root = radau_np.empty(max(n_ev, 1))
-    m_prev = radau_np.empty_like(m)
     n_alg = 0
     for i in range(n):
         if mass[i] == 0.0:
             n_alg += 1
-    alg = radau_np.empty(max(n_alg, 1), dtype=radau_np.int64)
     k = 0
     for i in range(n):
         if mass[i] == 0.0:
@@ -919,13 +969,15 @@ def radau_integrate(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_ti
         n_hit = 0
         if n_ev > 0:
             events_fn(t_new, ynew, p, m, d, w, g_new)
-            for s in range(2):
-                radau_interp(t_s + radau_C[s] * h_s, t_s, h_s, yold, qd, yint)
-                events_fn(t_s + radau_C[s] * h_s, yint, p, m, d, w, g_st[s])
-            stats[radau_S_EVENT_FN] += 3
+            stats[radau_S_EVENT_FN] += 1
+            if stage_checks:
+                for s in range(2):
+                    radau_interp(t_s + radau_C[s] * h_s, t_s, h_s, yold, qd, yint)
+                    events_fn(t_s + radau_C[s] * h_s, yint, p, m, d, w, g_st[s])
+                stats[radau_S_EVENT_FN] += 2
             tol = event_tol * max(1.0, abs(t_new))
             t_ev, n_hit = radau_locate(events_fn, t_s, h_s, t_new, yold, qd, p, m, d, w, g_old, g_st, g_new, event_dir,
-                                       tol, yint, gtmp, ev_hit, ev_root, stats)
+                                       tol, stage_checks, yint, gtmp, ev_hit, ev_root, stats)
         snap = 64.0 * radau_EPS * max(1.0, abs(t_ev))
         radau_emit_interp(record_fn, t_s, h_s, yold, qd, p, m, d, w, out_t0, out_dt, t_ev - snap, buf, buf_t, ti, yint)
         if n_hit > 0 and t_ev < t_new:
