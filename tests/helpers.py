@@ -11,10 +11,8 @@ hobby-size motor and bench loads), not taken from any data sheet.
 """
 from __future__ import annotations
 
-import math
 
 import numpy as np
-import pytest
 
 import emsim
 from emsim.components import (Battery, CompliantShaft, ConstantTorque, CoulombFriction, DCMotor, Gearbox,

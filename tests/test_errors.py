@@ -10,12 +10,11 @@ import math
 import re
 
 import numba
-import numpy as np
 import pytest
 
 import emsim
 from emsim import AssemblyError, ParameterError, PluginError, ResultsError, SolverError, UnitError, WiringError
-from emsim.components import (Battery, ConstantTorque, DCMotor, Inertia, SwitchedDCSource)
+from emsim.components import Battery, DCMotor, Inertia, SwitchedDCSource
 from emsim.model.declarations import Output, Param, Port
 from helpers import MOTOR, SOLVERS, SOLVER_IDS, build_dc_motor, schedule
 

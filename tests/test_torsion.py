@@ -19,7 +19,7 @@ from helpers import build_geared_torsion, build_torsion, crossings, run, solver_
 
 J1, J2, KS = 0.02, 0.05, 200.0
 JG, N = 0.002, 4.0
-T_END, DT = 1.0, 1e-4
+T_END, DT = 0.5, 2e-4   # ~9 periods of the two-rotor mode (53 ms)
 
 _runs: dict = {}
 
@@ -44,9 +44,9 @@ def frequency_from_crossings(t, x):
     return math.pi / half_period
 
 
-# The crossings come from linear interpolation between samples 1e-4 s apart. For a sine the
-# interpolated root is off by ~ (w dt)^2 dt / 50 (the curvature vanishes at a crossing) ~ 3e-9 s
-# here, i.e. ~3e-9 of the 1 s span between the first and last crossing; the solver's own timing
+# The crossings come from linear interpolation between samples 2e-4 s apart. For a sine the
+# interpolated root is off by ~ (w dt)^2 dt / 50 (the curvature vanishes at a crossing) ~ 2e-9 s
+# here, i.e. ~5e-9 of the ~0.45 s span between the first and last crossing; the solver's own timing
 # error is ~ (relative amplitude error) / w_n. Both stay well inside 1e3 * rtol (helpers.tol).
 
 
