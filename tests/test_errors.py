@@ -152,10 +152,6 @@ def test_node_of_only_inductive_members_cannot_be_determined():
 
 # --------------------------------------------------------------------------- plugins
 
-@pytest.mark.xfail(strict=True, raises=numba.core.errors.TypingError, reason=(
-    "emsim/assembly/assemble.py:36 calls load_generated() outside the try/except of _first_evaluation; since "
-    "the system functions are exported as eagerly compiled cfuncs (solvers/abi export_source), numba's "
-    "TypingError is raised while the generated module is imported and escapes unwrapped, not as PluginError"))
 def test_kernel_numba_rejects_names_the_class():
     s = emsim.System("dict_plugin")
     s.add(Inertia("j", inertia=1.0), DictKernelLoad("dl"))
@@ -177,10 +173,6 @@ def test_kernel_returning_nan_names_the_component():
         emsim.assemble(sqrt_system(-1.0))
 
 
-@pytest.mark.xfail(strict=True, reason=(
-    "emsim/assembly/assemble.py _check_finite names prob.row_owner of the first non-finite row; a NaN "
-    "*torque* lands in the rigid group's speed row, so the message names \"rigid group 'disc_node'\", "
-    "not the component 'bad' whose kernel produced it"))
 def test_kernel_returning_nan_message_names_the_culprit_component():
     with pytest.raises(PluginError, match=r"\bbad\b"):
         emsim.assemble(sqrt_system(-1.0))
@@ -246,11 +238,11 @@ def test_run_failing_midway_leaves_no_file_at_a_fresh_target(tmp_path, solver):
     assert 0.1 <= float(when.group(1).rstrip(".")) < 0.11
 
 
-@pytest.mark.xfail(strict=True, reason=(
-    "SolverError on a NaN torque names the rigid group row ('disc_node'), not the component 'bad': "
-    "emsim/solvers/reference.py _Run.f uses row_owner of the non-finite row; the compiled driver names "
-    "only the system"))
-@pytest.mark.parametrize("solver", SOLVERS, ids=SOLVER_IDS)
+@pytest.mark.parametrize("solver", [
+    pytest.param(sv, marks=pytest.mark.xfail(strict=True, reason=(
+        "the compiled driver (emsim/solvers/compiled.py) names only the row owner of a NaN, "
+        "not the component whose kernel produced it")) if i == "compiled" else ())
+    for sv, i in zip(SOLVERS, SOLVER_IDS)], ids=SOLVER_IDS)
 def test_run_failing_midway_names_the_culprit_component(tmp_path, solver):
     with pytest.raises(SolverError, match=r"\bbad\b"):
         emsim.simulate(sqrt_system(0.1), 0.3, out_dt=0.01, solver=solver)

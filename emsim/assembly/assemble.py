@@ -1,8 +1,6 @@
 """Assembly: validate -> lump rigid groups -> lay out y -> generate and compile -> consistent start."""
 from __future__ import annotations
 
-import math
-import re
 
 import numpy as np
 
@@ -14,6 +12,7 @@ from ..units import to_si
 from ..solvers.abi import export_source
 from .codegen import generate
 from .compile import load_generated
+from .diagnose import nonfinite_culprit
 from .layout import lay_out
 from .problem import Problem
 from .structure import Structure, analyse
@@ -33,7 +32,15 @@ def assemble(system: System, *, t0: float = 0.0) -> Problem:
     lay = lay_out(st)
     _apply_initial(st, lay)
     source, names, units, fingerprint = generate(st, lay)
-    module = load_generated("system", source + export_source(), extra_key=fingerprint)
+    try:
+        module = load_generated("system", source + export_source(), extra_key=fingerprint)
+    except EmsimError:
+        raise
+    except Exception as exc:  # the exported callbacks compile at import: numba typing/lowering errors
+        text = str(exc)
+        raise PluginError(f"{_culprit(text, st)} failed to compile in nopython mode (kernels must use the "
+                          "numba subset: float arrays, math/numpy scalar functions, no Python objects):\n"
+                          f"{_first_lines(text)}") from exc
     prob = Problem(
         module=module, t0=float(t0), y0=lay.y0.copy(), p=lay.p.copy(),
         m0=np.zeros(max(lay.m_size, 1), dtype=np.int64), d0=lay.d0.copy() if lay.d0.size else np.zeros(1),
@@ -90,17 +97,46 @@ def _first_evaluation(prob: Problem, st: Structure) -> None:
 
 
 def _culprit(text: str, st: Structure) -> str:
-    classes = []
+    """Name the component class and kernel that numba rejects, by compiling each kernel alone."""
+    import numba
+
+    seen = []
     for comp in st.components:
-        if type(comp) not in classes:
-            classes.append(type(comp))
-    for i, cls in enumerate(classes):
-        if re.search(rf"\bk{i}_(\w+)\b", text) or cls.__qualname__ in text:
-            m = re.search(rf"\bk{i}_(\w+)\b", text)
-            users = [c.name for c in st.components if type(c) is cls]
-            kernel = m.group(1) if m else "a kernel"
-            return f"component class {cls.__module__}.{cls.__qualname__} (used by {users}), kernel '{kernel}',"
+        cls = type(comp)
+        if cls in seen:
+            continue
+        seen.append(cls)
+        users = [c.name for c in st.components if type(c) is cls]
+        for kernel, args in _probe_arguments(comp).items():
+            fn = getattr(cls, kernel)
+            if fn is None:
+                continue
+            try:
+                with np.errstate(all="ignore"):
+                    numba.njit(fn)(*args)
+            except numba.core.errors.NumbaError:
+                return f"component class {cls.__module__}.{cls.__qualname__} (used by {users}), kernel '{kernel}',"
+            except Exception:  # a run-time error on dummy values is not a compile failure
+                pass
     return "the generated system"
+
+
+def _probe_arguments(comp) -> dict:
+    """Dummy arguments of the right types and sizes for each kernel of ``comp``."""
+    z = np.zeros
+    x, a, f = z(len(comp.states)), z(len(comp.ports)), z(len(comp.ports))
+    u, s, out = z(len(comp.inputs)), z(len(comp.signals)), z(len(comp.outputs))
+    p = comp.parameter_vector()
+    m, d = np.zeros(len(comp.modes), dtype=np.int64), z(len(comp.discrete))
+    n = len(comp.states) + len(comp.ports)
+    return {"equations": (0.0, x, a, u, p, m, d, z(len(comp.states)), f, s),
+            "monitor": (0.0, x, a, f, u, p, m, d, out),
+            "event_values": (0.0, x, a, f, u, p, m, d, z(len(comp.events))),
+            "on_event": (0, 0.0, x, a, f, u, p, m, d),
+            "at_time": (0.0, x, a, f, u, p, m, d),
+            "next_time": (0.0, p, m, d),
+            "start": (0.0, x, a, f, u, p, m, d),
+            "jacobian": (0.0, x, a, u, p, m, d, z((n, len(comp.states))), z((n, len(comp.ports))))}
 
 
 def _first_lines(text: str, n: int = 12) -> str:
@@ -118,7 +154,7 @@ def consistent_algebraic(prob: Problem, t: float, y: np.ndarray, m: np.ndarray, 
     dy = np.zeros(prob.n_main)
     rhs = prob.module.system_rhs
     rhs(t, y, prob.p, m, d, w, dy)
-    _check_finite(prob, t, y, dy)
+    _check_finite(prob, t, y, dy, m, d)
     if alg.size == 0:
         return
     for _ in range(max_iter):
@@ -138,7 +174,7 @@ def consistent_algebraic(prob: Problem, t: float, y: np.ndarray, m: np.ndarray, 
         step = np.linalg.solve(jac, res)
         y[alg] -= step
         rhs(t, y, prob.p, m, d, w, dy)
-        _check_finite(prob, t, y, dy)
+        _check_finite(prob, t, y, dy, m, d)
         if np.all(np.abs(step) <= tol * np.maximum(np.abs(y[alg]), prob.nominal[alg])):
             return
     raise AssemblyError(f"algebraic variables {[prob.state_names[i] for i in alg]} did not converge at t = {t:g} s "
@@ -158,11 +194,13 @@ def _undetermined_message(prob: Problem, alg: np.ndarray, jac: np.ndarray) -> st
             "a shaft group without inertia needs a load whose torque depends on speed.")
 
 
-def _check_finite(prob: Problem, t: float, y: np.ndarray, dy: np.ndarray) -> None:
+def _check_finite(prob: Problem, t: float, y: np.ndarray, dy: np.ndarray, m=None, d=None) -> None:
     bad = np.flatnonzero(~np.isfinite(dy))
     if bad.size:
         first = int(bad[0])
-        raise PluginError(f"{prob.row_owner[first]} returned a non-finite value for '{prob.state_names[first]}' "
+        culprit = nonfinite_culprit(prob, t, y, prob.m0 if m is None else m, prob.d0 if d is None else d)
+        where = culprit or prob.row_owner[first]
+        raise PluginError(f"{where} returned a non-finite value (first seen in '{prob.state_names[first]}') "
                           f"at t = {t:g} s; state: " +
                           ", ".join(f"{n}={v:.6g}" for n, v in zip(prob.state_names, y)))
 

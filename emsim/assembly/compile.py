@@ -57,6 +57,10 @@ def load_generated(prefix: str, source: str, extra_key: str = "") -> ModuleType:
     spec = importlib.util.spec_from_file_location(name, path)
     module = importlib.util.module_from_spec(spec)
     sys.modules[name] = module
-    spec.loader.exec_module(module)
+    try:
+        spec.loader.exec_module(module)
+    except BaseException:
+        sys.modules.pop(name, None)  # never leave a half-imported module behind
+        raise
     _loaded[name] = module
     return module

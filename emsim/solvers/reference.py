@@ -23,6 +23,7 @@ import numpy as np
 from scipy.integrate import Radau
 from scipy.optimize import brentq
 
+from ..assembly.diagnose import nonfinite_culprit
 from ..errors import SolverError
 from .base import Solver
 
@@ -123,8 +124,10 @@ class _Run:
         out[self.diff.size:] = self.dq
         if not np.all(np.isfinite(out)):
             bad = self.ode_rows[np.flatnonzero(~np.isfinite(out))[0]]
-            raise SolverError(f"non-finite derivative of '{self.prob.state_names[bad]}' "
-                              f"({self.prob.row_owner[bad]}) at t = {t:.9g} s")
+            culprit = nonfinite_culprit(self.prob, t, y, self.m, self.d) or self.prob.row_owner[bad]
+            raise SolverError(f"non-finite value from {culprit} at t = {t:.9g} s (first seen in the derivative "
+                              f"of '{self.prob.state_names[bad]}'); state: "
+                              + ", ".join(f"{n}={v:.6g}" for n, v in zip(self.prob.state_names, y)))
         return out
 
     def events_at(self, t, z):
