@@ -58,6 +58,7 @@ class SampledPISpeed(Component):
     discrete = (Discrete("integral", "", 0.0, "integral term I"),
                 Discrete("output", "", 0.0, "held output"))
     signals = (Signal("command", "", "held controller output"),)
+    held_signals = True  # the command changes only at sample instants
     outputs = (Output("error", "rad/s", "reference minus speed"),)
 
     def check(self, values):

@@ -33,7 +33,9 @@ Contract for a component class (numbered, like the rules of a solver):
    derivatives of the outputs of ``equations``: rows are ``dx`` then ``f`` (one
    per port), ``jx`` columns the own states ``x``, ``ja`` columns the ports'
    across variables ``a``. Both arrays arrive zeroed; write the non-zeros. Signal
-   inputs count as held (no dependence on the states). A system whose every
+   inputs count as held (no dependence on the states): a component whose signals
+   are computed from its states or ports declares ``held_signals = True`` only if
+   they change solely at events (as a sampled controller's do). A system whose every
    component supplies this kernel gets an analytic Jacobian; otherwise the solver
    uses compiled finite differences.
 5. Kernels allocate nothing and call only numpy/math functions numba supports.
@@ -83,6 +85,9 @@ class Component:
     energy: ClassVar[Energy] = Energy()
     derived: ClassVar[tuple] = ()
     sample_period: ClassVar[str | None] = None
+    #: True when the signal outputs change only at time or state events (held between them),
+    #: so they do not enter the Jacobian; sampled controllers set it.
+    held_signals: ClassVar[bool] = False
 
     equations = None
     monitor = None
