@@ -13,7 +13,9 @@ Slow baselines (scipy Radau and BDF) are timed over one reference period
 simulated s (see WINDOW below).
 
 Accuracy: error = max |w_L - w_L,ref| / (max w_L,ref - min w_L,ref) on the
-sample grid, against a tight cached reference.  Matched accuracy: for each
+sample grid, against a tight cached reference (baselines.reference: RK4 with
+many substeps per sample, its error estimated by Richardson extrapolation and
+asserted below 1e-3 of the smallest baseline error).  Matched accuracy: for each
 baseline, emsim is timed at the loosest rtol of RTOL_LADDER whose error is no
 worse than that baseline's error; the RATIO line for that baseline uses that
 emsim time.  REALTIME uses emsim at the tolerance that matches all the
@@ -172,8 +174,14 @@ def run(emsim_runner=None, benchmarks=None):
     for bench in benchmarks:
         hz.print_header(f"benchmark {bench}  ({SIM_SECONDS:g} s simulated, "
                         f"{dm.N_SAMPLES} controller samples)")
-        ref = baselines.reference(bench, verbose=True)
+        t_ref, w_ref, ref_est = baselines.reference(bench, verbose=True, with_estimate=True)
+        ref = (t_ref, w_ref)
         rows = _bench_baselines(bench, ref)
+        smallest = min(r["err"] for r in rows)
+        print(f"  reference error estimate {ref_est:.3e} vs smallest baseline error {smallest:.3e} "
+              f"(ratio {ref_est / smallest:.2e}, must be < {baselines.REF_MARGIN:g})", flush=True)
+        assert ref_est < baselines.REF_MARGIN * smallest, (
+            f"{bench}: reference not accurate enough ({ref_est:.3e} >= {baselines.REF_MARGIN:g} x {smallest:.3e})")
         em = None
         if emsim_runner is not None:
             try:
@@ -191,9 +199,11 @@ def run(emsim_runner=None, benchmarks=None):
             if unmatched:
                 print(f"WARNING: emsim did not reach the accuracy of {unmatched} "
                       f"on the ladder {RTOL_LADDER}; ratios use its tightest rtol")
+            base_err = {r["name"]: r["err"] for r in rows}
+            print("  matched accuracy (emsim at the loosest ladder rtol whose error is no worse):")
             for name, rtol, ok, tm in em["lines"]:
-                print(f"  vs {name:14s}: emsim at rtol={rtol:g} "
-                      f"(error {em['probes'][rtol]:.3e}{'' if ok else ', UNMATCHED'})")
+                print(f"    vs {name:14s} (error {base_err[name]:.3e}): emsim needed rtol={rtol:g} "
+                      f"(error {em['probes'][rtol]:.3e}, {tm:.4f} s){'' if ok else ', UNMATCHED'}")
             # all ratios are of wall s per simulated s (windows may differ)
             for name, rtol, ok, tm in em["lines"]:
                 base = next(r for r in rows if r["name"] == name)
