@@ -54,7 +54,7 @@ def main(path: str = "parcel_conveyor.h5", seconds: float = 20.0) -> None:
         rms = float(np.sqrt(np.trapezoid(current**2, t) / (t[-1] - t[0])))
         bus = res["bus.voltage"]
         print(f"parcel conveyor, {seconds:g} s simulated in {run.wall_time:.2f} s of wall time -> {path}")
-        print(f"  final drum speed     {res['drum_shaft.speed'][-1]:8.3f} rad/s")
+        print(f"  drum speed peak/end  {res['drum_shaft.speed'].max():8.3f} / {res['drum_shaft.speed'][-1]:.3f} rad/s")
         print(f"  peak / RMS current   {np.abs(current).max():8.2f} A / {rms:.2f} A")
         print(f"  bus voltage min      {bus.min():8.2f} V (sag {bus.max() - bus.min():.2f} V)")
         print(f"  battery charge left  {100 * res['pack.soc'][-1]:8.2f} %")

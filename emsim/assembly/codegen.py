@@ -11,6 +11,7 @@ from __future__ import annotations
 import inspect
 
 from ..model.declarations import DOMAINS, KERNELS
+from .jacgen import generate_jacobian
 from .layout import Layout
 from .structure import Structure
 
@@ -20,6 +21,11 @@ from .structure import Structure
 # puts a zero test and a raise path behind every division, and the raise paths keep numba
 # from pruning the reference counting of the array arguments (~2x the cost of a call).
 _JIT = '@nb.njit(cache=True, error_model="numpy")'
+
+#: Power (W) by which the flow through a lossy gear must reverse before its efficiency mode
+#: switches. Round-off makes the power flicker around zero at standstill; without the band
+#: every flicker would be an event. The mode is then at most this much power "wrong".
+POWER_DEADBAND = 1e-4
 
 
 class _Src:
@@ -244,7 +250,10 @@ def generate(st: Structure, lay: Layout) -> tuple[str, list[str], list[str], str
         src(f"system_coupling_torque(y, p, m, w, w[{W['GX']}:{W['GX'] + len(lossy)}])", 1)
         for j, k in enumerate(lossy):
             grow = lay.group_row[st.nodes[st.couplings[k].child].group]
-            src(f"g[{lay.coupling_event[k]}] = w[{W['GX']}+{j}] * y[{grow}]", 1)
+            # hysteresis: switch only once the power is clearly reversed (no chatter around standstill)
+            src(f"pw = w[{W['GX']}+{j}] * y[{grow}]", 1)
+            src(f"g[{lay.coupling_event[k]}] = pw + {POWER_DEADBAND!r} if m[{lay.coupling_mode[k]}] == 0 "
+                f"else pw - {POWER_DEADBAND!r}", 1)
     src("return", 1)
     src()
 
@@ -286,8 +295,10 @@ def generate(st: Structure, lay: Layout) -> tuple[str, list[str], list[str], str
     src(_JIT)
     src("def system_at_time(t, y, p, m, d, w, log):")
     src("n = 0", 1)
+    # instants closer than round-off (a sample and a profile corner computed two ways) are one instant
+    src("due = t + 1e-12 * max(1.0, abs(t))", 1)
     for ci in timed:
-        src(f"if d[{lay.comp[ci].slot}] <= t:", 1)
+        src(f"if d[{lay.comp[ci].slot}] <= due:", 1)
         src(eval_scratch, 2)
         src(call(ci, "at_time"), 2)
         advance_slot(ci, 2)
@@ -322,6 +333,9 @@ def generate(st: Structure, lay: Layout) -> tuple[str, list[str], list[str], str
         advance_slot(ci, 1)
     src("return", 1)
     src()
+
+    # ---------------------------------------------------------------- analytic Jacobian
+    src(generate_jacobian(st, lay, _JIT, kern, args_core, node_E, node_cap))
 
     # ---------------------------------------------------------------- record
     names, units = list(lay.state_names), []

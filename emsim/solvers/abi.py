@@ -15,9 +15,10 @@ _f8 = types.float64
 _i8 = types.int64
 _A = types.Array(types.float64, 1, "C")
 _I = types.Array(types.int64, 1, "C")
+_A2 = types.Array(types.float64, 2, "C")
 
 #: Order in which the callbacks are passed to ``radau_integrate``.
-ORDER = ("rhs", "quad", "events", "on_event", "next_time", "at_time", "start", "record")
+ORDER = ("rhs", "quad", "events", "on_event", "next_time", "at_time", "start", "record", "jacobian")
 
 SIGNATURES = {
     "rhs": types.void(_f8, _A, _A, _I, _A, _A, _A),
@@ -28,6 +29,8 @@ SIGNATURES = {
     "at_time": types.int64(_f8, _A, _A, _I, _A, _A, _I),
     "start": types.void(_f8, _A, _A, _I, _A, _A),
     "record": types.void(_f8, _A, _A, _I, _A, _A, _A),
+    # fills the n_main x n_main Jacobian and returns 1, or returns 0: use finite differences
+    "jacobian": types.int64(_f8, _A, _A, _I, _A, _A, _A2),
 }
 
 
@@ -40,6 +43,7 @@ ARGS = {
     "at_time": "t, y, p, m, d, w, log",
     "start": "t, y, p, m, d, w",
     "record": "t, y, p, m, d, w, row",
+    "jacobian": "t, y, p, m, d, w, jac",
 }
 
 

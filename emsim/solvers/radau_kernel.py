@@ -187,8 +187,11 @@ def radau_row_time(k, out_t0, out_dt):
 
 
 @radau_njit(cache=True)
-def radau_jacobian(rhs_fn, t, y, p, m, d, w, f0, nominal, n, jac, ftmp, stats):
-    """Forward-difference Jacobian of the main rows, column by column, at (t, y)."""
+def radau_jacobian(jacobian_fn, rhs_fn, t, y, p, m, d, w, f0, nominal, n, jac, ftmp, stats):
+    """Jacobian of the main rows at (t, y): the system's analytic one when it has it, else forward differences."""
+    stats[radau_S_JAC] += 1
+    if jacobian_fn(t, y, p, m, d, w, jac) == 1:
+        return
     sq = radau_math.sqrt(radau_EPS)
     for j in range(n):
         yj = y[j]
@@ -203,7 +206,6 @@ def radau_jacobian(rhs_fn, t, y, p, m, d, w, f0, nominal, n, jac, ftmp, stats):
         for i in range(n):
             jac[i, j] = (ftmp[i] - f0[i]) * inv
     stats[radau_S_RHS] += n
-    stats[radau_S_JAC] += 1
 
 
 @radau_njit(cache=True)
@@ -328,7 +330,7 @@ def radau_error(rhs_fn, t, h, y, ynew, z, f0, mass, n, atol, rtol, lu_r, piv, p,
 
 
 @radau_njit(cache=True)
-def radau_make_consistent(rhs_fn, t, y, p, m, d, w, n, alg, n_alg, atol, rtol, nominal,
+def radau_make_consistent(jacobian_fn, rhs_fn, t, y, p, m, d, w, n, alg, n_alg, atol, rtol, nominal,
                           jac, lu_a, piv, f0, ftmp, dz, y_fail, tf, ti, stats):
     """Solve the algebraic rows for their states with the differential rows fixed.
 
@@ -351,7 +353,7 @@ def radau_make_consistent(rhs_fn, t, y, p, m, d, w, n, alg, n_alg, atol, rtol, n
             if n_alg == 0:
                 return 0
             if ti[radau_I_JAC] == 0:
-                radau_jacobian(rhs_fn, t, y, p, m, d, w, f0, nominal, n, jac, ftmp, stats)
+                radau_jacobian(jacobian_fn, rhs_fn, t, y, p, m, d, w, f0, nominal, n, jac, ftmp, stats)
                 ti[radau_I_JAC] = 1
                 ti[radau_I_JACNOW] = 1
                 ti[radau_I_LU] = 0
@@ -639,7 +641,7 @@ def radau_borrow(typingctx, arr):
 
 
 @radau_njit(cache=True)
-def radau_integrate(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
+def radau_integrate(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, jacobian_fn, t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
                     opt, iopt, buf, buf_t, log_t, log_comp, log_kind, log_index, comp_scratch,
                     tf, ti, jac, lu_r, lu_c, lu_a, piv, f0, g_old, qd, y_fail, stats, scratch):
     """Integrate from ``tf[F_T]`` towards ``t_end``; return a status code.
@@ -653,7 +655,7 @@ def radau_integrate(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_ti
     """
     zs, wts, fs, fqs, vec, small, bcs, evs, ev_hits, m_prevs, algs = scratch
     b = radau_borrow
-    return radau_loop(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn,
+    return radau_loop(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, jacobian_fn,
                       t_end, b(y), b(p), b(m), b(d), b(w), b(mass), b(atol), b(nominal), b(event_dir), n_main,
                       b(opt), b(iopt), b(buf), b(buf_t), b(log_t), b(log_comp), b(log_kind), b(log_index),
                       b(comp_scratch), b(tf), b(ti), b(jac), b(lu_r), b(lu_c), b(lu_a), b(piv), b(f0), b(g_old),
@@ -664,7 +666,7 @@ def radau_integrate(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_ti
 
 
 @radau_njit(cache=True)
-def radau_loop(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
+def radau_loop(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, jacobian_fn, t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
                opt, iopt, buf, buf_t, log_t, log_comp, log_kind, log_index, comp_scratch,
                tf, ti, jac, lu_r, lu_c, lu_a, piv, f0, g_old, qd, y_fail, stats,
                z, wt, f, fq, ys, ynew, yold, yint, ysave, sc, br, bc, ftmp, err, zm, dz,
@@ -715,7 +717,7 @@ def radau_loop(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn
         tf[radau_F_TANCHOR] = -radau_np.inf
         tf[radau_F_ETA] = 1.0
         tf[radau_F_HACC] = 0.0
-        st = radau_make_consistent(rhs_fn, t, y, p, m, d, w, n, alg, n_alg, atol, rtol, nominal,
+        st = radau_make_consistent(jacobian_fn, rhs_fn, t, y, p, m, d, w, n, alg, n_alg, atol, rtol, nominal,
                                    jac, lu_a, piv, f0, ftmp, dz, y_fail, tf, ti, stats)
         if st != 0:
             return st
@@ -804,7 +806,7 @@ def radau_loop(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn
                     return radau_STATUS_NEWTON
                 return radau_STATUS_STEP_TOO_SMALL
             if ti[radau_I_JAC] == 0:
-                radau_jacobian(rhs_fn, t, y, p, m, d, w, f0, nominal, n, jac, ftmp, stats)
+                radau_jacobian(jacobian_fn, rhs_fn, t, y, p, m, d, w, f0, nominal, n, jac, ftmp, stats)
                 ti[radau_I_JAC] = 1
                 ti[radau_I_JACNOW] = 1
                 ti[radau_I_LU] = 0
@@ -1056,7 +1058,7 @@ def radau_loop(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn
                     ti[radau_I_EXT] = 0
                     break
         ti[radau_I_NLOG] = nlog
-        st = radau_make_consistent(rhs_fn, t, y, p, m, d, w, n, alg, n_alg, atol, rtol, nominal,
+        st = radau_make_consistent(jacobian_fn, rhs_fn, t, y, p, m, d, w, n, alg, n_alg, atol, rtol, nominal,
                                    jac, lu_a, piv, f0, ftmp, dz, y_fail, tf, ti, stats)
         if st != 0:
             tf[radau_F_T] = t

@@ -157,6 +157,7 @@ def compile_standalone(rhs, y0, *, n_main=None, mass=None, events=None, directio
         lines += block("system_next_time(t, p, m, d)", ["    return k_np.inf"])
         lines += block("system_at_time(t, y, p, m, d, w, log)", ["    return 0"])
     lines += block("system_start(t, y, p, m, d, w)", ["    pass"])
+    lines += block("system_jacobian(t, y, p, m, d, w, jac)", ["    return 0"])
     if record is None:
         lines += block("system_record(t, y, p, m, d, w, row)",
                        ["    for i in range(row.shape[0]):", "        row[i] = y[i]"])
