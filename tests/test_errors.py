@@ -238,11 +238,7 @@ def test_run_failing_midway_leaves_no_file_at_a_fresh_target(tmp_path, solver):
     assert 0.1 <= float(when.group(1).rstrip(".")) < 0.11
 
 
-@pytest.mark.parametrize("solver", [
-    pytest.param(sv, marks=pytest.mark.xfail(strict=True, reason=(
-        "the compiled driver (emsim/solvers/compiled.py) names only the row owner of a NaN, "
-        "not the component whose kernel produced it")) if i == "compiled" else ())
-    for sv, i in zip(SOLVERS, SOLVER_IDS)], ids=SOLVER_IDS)
+@pytest.mark.parametrize("solver", SOLVERS, ids=SOLVER_IDS)
 def test_run_failing_midway_names_the_culprit_component(tmp_path, solver):
     with pytest.raises(SolverError, match=r"\bbad\b"):
         emsim.simulate(sqrt_system(0.1), 0.3, out_dt=0.01, solver=solver)

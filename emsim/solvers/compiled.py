@@ -77,6 +77,7 @@ import math
 
 import numpy as np
 
+from ..assembly.diagnose import nonfinite_culprit
 from ..errors import SolverError
 from . import abi
 from .base import Solver
@@ -317,6 +318,14 @@ class RadauRun:
             t_bad = float(self.tf[10])
             y_report = self.y_fail
             row, where = self._find_nonfinite(t_bad, self.y_fail)
+            culprit = None
+            if where == "right-hand-side":
+                try:
+                    culprit = nonfinite_culprit(pr, t_bad, self.y_fail, self.m, self.d)
+                except Exception:  # the report must not hide the original failure
+                    culprit = None
+            if culprit:
+                lines.append(f"non-finite value from {culprit} at t = {t_bad:.12g} s")
             if row >= 0:
                 lines.append(f"first non-finite {where} row {row} (state {self.names[row]}, "
                              f"equation of {self._owner(row)}) at t = {t_bad:.12g} s")

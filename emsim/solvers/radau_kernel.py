@@ -790,10 +790,10 @@ def radau_loop(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn
             hmin = 16.0 * radau_EPS * abs(t)
             if h <= hmin or n_fail > 60:
                 tf[radau_F_T] = t
-                tf[radau_F_TFAIL] = t
                 tf[radau_F_HFAIL] = h
                 if cause == 3:
-                    return radau_STATUS_NONFINITE
+                    return radau_STATUS_NONFINITE  # F_TFAIL and y_fail hold the failing stage
+                tf[radau_F_TFAIL] = t
                 if ti[radau_I_FAILINFO] < 0:
                     # no error test decided it: name the row that changes fastest relative to its weight
                     worst = -1.0
