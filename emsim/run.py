@@ -175,7 +175,9 @@ def simulate(system: System | Problem, t_end, *, out_dt=None, output: str | os.P
         sink.close(ok=True)
         return RunResult(np.zeros(0), {}, dict(zip(names, units)), energy, stats, {}, str(output), wall)
     t, data, ev = sink.arrays()
-    events = {"time": ev[0], "component": [problem.component_names[i] if i >= 0 else "" for i in ev[1]],
-              "kind": [EVENT_KINDS.get(int(k), str(k)) for k in ev[2]], "index": ev[3]}
+    names_by_index = np.array(list(problem.component_names) + [""], dtype=object)  # -1 -> ""
+    kinds_by_code = np.array(["", EVENT_KINDS[1], EVENT_KINDS[2]], dtype=object)
+    events = {"time": ev[0], "component": list(names_by_index[np.asarray(ev[1], dtype=np.int64)]),
+              "kind": list(kinds_by_code[np.clip(np.asarray(ev[2], dtype=np.int64), 0, 2)]), "index": ev[3]}
     signals = {n: data[:, i] for i, n in enumerate(names)}
     return RunResult(t, signals, dict(zip(names, units)), energy, stats, events, None, wall)
