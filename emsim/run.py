@@ -174,7 +174,8 @@ def simulate(system: System | Problem, t_end, *, out_dt=None, output: str | os.P
         sink.set_stats({k: v for k, v in stats.items() if isinstance(v, (int, float))})
         sink.close(ok=True)
         return RunResult(np.zeros(0), {}, dict(zip(names, units)), energy, stats, {}, str(output), wall)
-    t, data, ev = sink.arrays()
+    t, data = sink.arrays()
+    ev = sink.event_arrays()
     names_by_index = np.array(list(problem.component_names) + [""], dtype=object)  # -1 -> ""
     kinds_by_code = np.array(["", EVENT_KINDS[1], EVENT_KINDS[2]], dtype=object)
     events = {"time": ev[0], "component": list(names_by_index[np.asarray(ev[1], dtype=np.int64)]),

@@ -12,7 +12,7 @@ import pytest
 
 import problems as P
 from emsim.errors import SolverError
-from emsim.solvers.base import MemorySink
+from emsim.results.memory import MemoryRecorder
 from emsim.solvers.compiled import Radau5
 from emsim.solvers.standalone import solve_standalone
 
@@ -103,7 +103,7 @@ def test_rows_and_events_arrive_in_batches_in_order():
     # same closed form as above, batches far smaller than the run: nothing lost or duplicated
     a, gain, ts = 1.0, 5.0, 1e-3
     pr = P.make(P.SAMPLED, [1.0], (a, gain, ts), d0=(-gain,))
-    sink = MemorySink()
+    sink = MemoryRecorder()
     run = Radau5(rtol=1e-6, batch_rows=7, event_log_size=40).start(pr, out_dt=2.5e-4)
     run.advance(0.05, sink)
     run.advance(0.1, sink)  # continuing keeps the state, J and LU

@@ -1,28 +1,37 @@
-"""An in-memory sink for short runs without a file (memory grows with the run: use a file for long ones)."""
+"""An in-memory sink for short runs and tests (memory grows with the run: use a file for long ones)."""
 from __future__ import annotations
 
 import numpy as np
 
 
 class MemoryRecorder:
-    """Collects rows and events in memory; ``result()`` gives arrays by signal name."""
+    """Collects output rows and the event log in memory (a solver sink, see emsim.solvers.base).
 
-    def __init__(self, names: list, units: list):
-        self.names, self.units = list(names), list(units)
+    Parameters
+    ----------
+    names, units : list of str, optional
+        Column names and units, kept for the caller.
+    """
+
+    def __init__(self, names: list | None = None, units: list | None = None):
+        self.names, self.units = list(names or []), list(units or [])
         self._t, self._rows, self._ev = [], [], []
 
     def rows(self, t, data):
-        self._t.append(np.asarray(t, dtype=float).copy())
-        self._rows.append(np.asarray(data, dtype=float).copy())
+        self._t.append(np.array(t, dtype=float))      # copies: solvers reuse their buffers
+        self._rows.append(np.array(data, dtype=float))
 
     def events(self, t, component, kind, index):
-        self._ev.append((np.asarray(t, float), np.asarray(component), np.asarray(kind), np.asarray(index)))
+        self._ev.append(tuple(np.array(a) for a in (t, component, kind, index)))
 
     def arrays(self):
-        t = np.concatenate(self._t) if self._t else np.zeros(0)
-        data = np.vstack(self._rows) if self._rows else np.zeros((0, len(self.names)))
-        if self._ev:
-            ev = tuple(np.concatenate([e[i] for e in self._ev]) for i in range(4))
-        else:
-            ev = (np.zeros(0), np.zeros(0, int), np.zeros(0, int), np.zeros(0, int))
-        return t, data, ev
+        """``(t, data)``: output times and the rows, concatenated."""
+        if not self._t:
+            return np.zeros(0), np.zeros((0, len(self.names)))
+        return np.concatenate(self._t), np.concatenate(self._rows)
+
+    def event_arrays(self):
+        """``(t, component, kind, index)`` of the event log, concatenated."""
+        if not self._ev:
+            return np.zeros(0), np.zeros(0, np.int64), np.zeros(0, np.int64), np.zeros(0, np.int64)
+        return tuple(np.concatenate([e[i] for e in self._ev]) for i in range(4))

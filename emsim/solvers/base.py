@@ -46,37 +46,3 @@ class Solver(ABC):
     @abstractmethod
     def settings(self) -> dict:
         """The solver options as a plain dict (contract 7)."""
-
-
-class MemorySink:
-    """A sink that keeps everything in memory (tests, small runs).
-
-    After the run, :meth:`arrays` returns ``(t, data)`` and :meth:`event_arrays`
-    returns ``(t, component, kind, index)`` as concatenated numpy arrays.
-    """
-
-    def __init__(self):
-        self._t, self._data = [], []
-        self._ev = [], [], [], []
-
-    def rows(self, t, data):
-        self._t.append(t.copy())
-        self._data.append(data.copy())
-
-    def events(self, t, component, kind, index):
-        for store, a in zip(self._ev, (t, component, kind, index)):
-            store.append(a.copy())
-
-    def arrays(self):
-        import numpy as np
-
-        if not self._t:
-            return np.empty(0), np.empty((0, 0))
-        return np.concatenate(self._t), np.concatenate(self._data)
-
-    def event_arrays(self):
-        import numpy as np
-
-        if not self._ev[0]:
-            return np.empty(0), np.empty(0, np.int64), np.empty(0, np.int64), np.empty(0, np.int64)
-        return tuple(np.concatenate(s) for s in self._ev)

@@ -192,10 +192,10 @@ def solve_standalone(problem: Problem, t_end: float, *, out_dt: float, **options
     Returns ``(t, rows, events, stats)`` where ``events`` is the tuple
     ``(t, component, kind, index)`` of the event log.
     """
-    from .base import MemorySink
+    from ..results.memory import MemoryRecorder
     from .compiled import Radau5
 
-    sink = MemorySink()
+    sink = MemoryRecorder()
     stats = Radau5(**options).run(problem, t_end, out_dt=out_dt, sink=sink)
     t, rows = sink.arrays()
     return t, rows, sink.event_arrays(), stats
