@@ -17,9 +17,15 @@ array the generated code uses for port and signal buffers)::
                                               #   component indices into log (int64), returns the count
     system_start(t, y, p, m, d, w)            # once, at the start: components set initial modes
     system_record(t, y, p, m, d, w, row)      # fill one output row (n_record values)
+    system_jacobian(t, y, p, m, d, w, jac)    # fill d(dy)/dy (n_main x n_main) and return 1, or
+                                              #   return 0: the solver uses finite differences
 
 ``y`` holds ``n_main`` main rows followed by ``n_quad`` quadrature rows; the
-quadrature rows never feed back into the main rows.
+quadrature rows never feed back into the main rows. The module also exports
+each function as a C callback ``cb_<name>`` (:mod:`emsim.solvers.abi`). The
+generated code uses numpy's floating-point error model: a division by zero
+gives inf/NaN, which the solvers report as a non-finite value naming the
+component, rather than raising inside compiled code.
 """
 from __future__ import annotations
 
