@@ -88,17 +88,7 @@ class SwitchedDCSource(Component):
                 break
         d[0] = level
 
-    @staticmethod
-    def start(t, x, a, f, u, p, m, d):
-        n = int(p[1])
-        tol = 1e-12 * max(1.0, abs(t))
-        level = p[0]
-        for i in range(n):
-            if p[2 + i] <= t + tol:
-                level = p[3 + n + i]
-            else:
-                break
-        d[0] = level
+    start = at_time  # at the start, the level is the one the schedule gives for t0
 
 
 class Battery(Component):
