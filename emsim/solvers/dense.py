@@ -16,7 +16,7 @@ import math
 from numba import njit
 
 
-@njit(cache=True)
+@njit(cache=True, inline="always")
 def lu_factor(a, piv, n):
     """LU factorisation with partial (row) pivoting of ``a[:n, :n]``, in place.
 
@@ -61,7 +61,7 @@ def lu_factor(a, piv, n):
     return info
 
 
-@njit(cache=True)
+@njit(cache=True, inline="always")
 def lu_solve(lu, piv, b, n):
     """Solve ``A x = b`` in place in ``b[:n]`` with the factors from :func:`lu_factor`."""
     for k in range(n):
@@ -82,7 +82,7 @@ def lu_solve(lu, piv, b, n):
         b[i] = s * lu[i, i]
 
 
-@njit(cache=True)
+@njit(cache=True, inline="always")
 def wrms(v, scale, n):
     """Weighted root-mean-square norm ``sqrt(mean((v[:n] / scale[:n])**2))``; 0 for n == 0."""
     if n == 0:
@@ -94,7 +94,7 @@ def wrms(v, scale, n):
     return math.sqrt(s / n)
 
 
-@njit(cache=True)
+@njit(cache=True, inline="always")
 def all_finite(v, n):
     """True when every one of ``v[:n]`` is finite (no NaN, no inf)."""
     for i in range(n):
@@ -103,7 +103,7 @@ def all_finite(v, n):
     return True
 
 
-@njit(cache=True)
+@njit(cache=True, inline="always")
 def first_nonfinite(v, n):
     """Index of the first non-finite entry of ``v[:n]``, or -1."""
     for i in range(n):

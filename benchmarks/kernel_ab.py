@@ -1,0 +1,60 @@
+"""Side-by-side timing of the compiled Radau kernel against a frozen copy (benchmarks/_kernel_base.py).
+
+Both kernels run in one process, alternately, on the emsim benchmark drives; prints the
+median of 7 wall times for 10 s simulated, the ratio new/base, and the solver statistics.
+Refresh the frozen copy with ``git show <rev>:emsim/solvers/radau_kernel.py > benchmarks/_kernel_base.py``.
+"""
+from __future__ import annotations
+
+import statistics
+import sys
+import time
+from pathlib import Path
+
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+
+import emsim  # noqa: E402
+import emsim.solvers.compiled as comp  # noqa: E402
+from emsim.solvers import radau_kernel as new_k  # noqa: E402
+import _kernel_base as base_k  # noqa: E402
+import drive_model as dm  # noqa: E402
+import emsim_side  # noqa: E402
+
+REPS = 7
+
+
+def run(prob, rtol, kernel):
+    comp.radau_integrate = kernel.radau_integrate
+    comp.radau_scratch = kernel.radau_scratch
+    solver = comp.Radau5(rtol=rtol, batch_rows=16384)
+    t0 = time.perf_counter()
+    res = emsim.simulate(prob, dm.T_END, out_dt=dm.TS, solver=solver)
+    return time.perf_counter() - t0, res
+
+
+def main(variants=None, rtols=(1e-4, 1e-6, 1e-8)):
+    variants = variants or ["averaged-drive", "stiff-drive"]
+    for v in variants:
+        prob = emsim.assemble(emsim_side.build(v))
+        for k in (base_k, new_k):
+            t0 = time.perf_counter(); run(prob, 1e-4, k)
+            print(f"{v}: first run {k.__name__} {time.perf_counter() - t0:.2f} s", flush=True)
+        for rtol in rtols:
+            tb, tn = [], []
+            for _ in range(REPS):
+                a, rb = run(prob, rtol, base_k); tb.append(a)
+                b, rn = run(prob, rtol, new_k); tn.append(b)
+            wb, wn = rb["load_side.speed"], rn["load_side.speed"]
+            diff = float(abs(wb - wn).max())
+            mb, mn = statistics.median(tb), statistics.median(tn)
+            st = getattr(rn, "stats", None)
+            print(f"  {v} rtol {rtol:g}: base {mb*1e3:.2f} ms  new {mn*1e3:.2f} ms  ratio {mn/mb:.3f}  "
+                  f"max|dw| {diff:.2e}", flush=True)
+            for name, r in (("base", rb), ("new", rn)):
+                s = getattr(r, "solver_stats", None) or getattr(r, "stats", None)
+                if s:
+                    print(f"      {name} stats {s}")
+
+
+if __name__ == "__main__":
+    main(sys.argv[1:] or None)
