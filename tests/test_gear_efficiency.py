@@ -18,6 +18,8 @@ Outside references (common practice: gear reflection with efficiency, by directi
 from __future__ import annotations
 
 import numpy as np
+
+from emsim.assembly.codegen import POWER_DEADBAND
 import pytest
 from scipy.integrate import solve_ivp
 
@@ -114,7 +116,7 @@ def test_gear_and_reflected_inertia_give_the_same_current(solver):
 
 
 def hand_written_reference(t_eval, *, t_load, j_load, j_rotor, ratio, eta, voltage=V_SUPPLY):
-    """solve_ivp of the motor + lossy gear equations, switching the power-flow case at T_in = 0."""
+    """solve_ivp of the motor + lossy gear equations, switching the power-flow case when the power reverses."""
     L = MOTOR["inductance"]
 
     def accel(i, motoring):
@@ -134,9 +136,13 @@ def hand_written_reference(t_eval, *, t_load, j_load, j_rotor, ratio, eta, volta
             return [(voltage - R * y[0] - K * y[1]) / L, accel(y[0], motoring)]
 
         def reversal(t, y, motoring=motoring):
-            return t_in(y[0], motoring)
+            # power the load side hands to the gear: -(gear output torque) x (output speed); emsim switches
+            # the efficiency once it is reversed by more than its documented hysteresis (DEVELOPERS.md)
+            t_out = j_load * accel(y[0], motoring) / ratio + t_load
+            power = -t_out * y[1] / ratio
+            return power - POWER_DEADBAND if motoring else power + POWER_DEADBAND
         reversal.terminal = True
-        reversal.direction = -1 if motoring else +1
+        reversal.direction = +1 if motoring else -1
         sol = solve_ivp(rhs, (t0, t_end), y0, method="DOP853", rtol=1e-12, atol=1e-12,
                         events=reversal, dense_output=True)
         assert sol.success
