@@ -640,7 +640,7 @@ def radau_borrow(typingctx, arr):
     return arr(arr), codegen
 
 
-@radau_njit(cache=True)
+@radau_njit(cache=True, error_model="numpy")
 def radau_integrate(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, jacobian_fn, t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
                     opt, iopt, buf, buf_t, log_t, log_comp, log_kind, log_index, comp_scratch,
                     tf, ti, jac, lu_r, lu_c, lu_a, piv, f0, g_old, qd, y_fail, stats, scratch):
@@ -665,7 +665,7 @@ def radau_integrate(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_ti
                       b(evs[0]), b(evs[3:5]), b(evs[1]), b(ev_hits), b(evs[2]), b(m_prevs), b(algs))
 
 
-@radau_njit(cache=True)
+@radau_njit(cache=True, error_model="numpy")
 def radau_loop(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, jacobian_fn, t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
                opt, iopt, buf, buf_t, log_t, log_comp, log_kind, log_index, comp_scratch,
                tf, ti, jac, lu_r, lu_c, lu_a, piv, f0, g_old, qd, y_fail, stats,
