@@ -178,7 +178,7 @@ radau_STATUS_CHATTERING = -4
 radau_STATUS_MAX_STEPS = -5
 
 
-@radau_njit(cache=True)
+@radau_njit(cache=True, inline="always")
 def radau_row_time(k, out_t0, out_dt):
     """Time of output row ``k``."""
     if k == 0:
@@ -186,7 +186,7 @@ def radau_row_time(k, out_t0, out_dt):
     return out_t0 + k * out_dt
 
 
-@radau_njit(cache=True)
+@radau_njit(cache=True, inline="always")
 def radau_jacobian(jacobian_fn, rhs_fn, t, y, p, m, d, w, f0, nominal, n, jac, ftmp, stats):
     """Jacobian of the main rows at (t, y): the system's analytic one when it has it, else forward differences."""
     stats[radau_S_JAC] += 1
@@ -208,7 +208,7 @@ def radau_jacobian(jacobian_fn, rhs_fn, t, y, p, m, d, w, f0, nominal, n, jac, f
     stats[radau_S_RHS] += n
 
 
-@radau_njit(cache=True)
+@radau_njit(cache=True, inline="always")
 def radau_factor(h, jac, mass, n, lu_r, lu_c, piv):
     """Form and factor (gamma/h) M - J and ((alpha - i beta)/h) M - J; 0 when both are regular."""
     fr = radau_GAMMA / h
@@ -224,7 +224,7 @@ def radau_factor(h, jac, mass, n, lu_r, lu_c, piv):
     return info_r + info_c
 
 
-@radau_njit(cache=True)
+@radau_njit(cache=True, inline="always")
 def radau_newton(rhs_fn, t, h, y, p, m, d, w, mass, n, sc, z, wt, f, ys, br, bc,
                  lu_r, lu_c, piv, eta0, fnewt, maxit, y_fail, tf, stats):
     """Simplified Newton iteration on the transformed collocation system.
@@ -303,7 +303,7 @@ def radau_newton(rhs_fn, t, h, y, p, m, d, w, mass, n, sc, z, wt, f, ys, br, bc,
     return 1, maxit, rate, eta
 
 
-@radau_njit(cache=True)
+@radau_njit(cache=True, inline="always")
 def radau_error(rhs_fn, t, h, y, ynew, z, f0, mass, n, atol, rtol, lu_r, piv, p, m, d, w,
                 refine, err, zm, sc, ys, ftmp, stats):
     """Hairer & Wanner's error estimate (with mass matrix); refined once when asked."""
@@ -329,7 +329,7 @@ def radau_error(rhs_fn, t, h, y, ynew, z, f0, mass, n, atol, rtol, lu_r, piv, p,
     return e
 
 
-@radau_njit(cache=True)
+@radau_njit(cache=True, inline="always")
 def radau_make_consistent(jacobian_fn, rhs_fn, t, y, p, m, d, w, n, alg, n_alg, atol, rtol, nominal,
                           jac, lu_a, piv, f0, ftmp, dz, y_fail, tf, ti, stats):
     """Solve the algebraic rows for their states with the differential rows fixed.
@@ -440,7 +440,7 @@ def radau_initial_step(rhs_fn, t, y, p, m, d, w, f0, mass, n, atol, rtol, ys, ft
     return min(100.0 * h0, h1)
 
 
-@radau_njit(cache=True)
+@radau_njit(cache=True, inline="always")
 def radau_interp(tq, t_s, h_s, y_s, qd, yint):
     """Collocation polynomial of the last step at time ``tq`` into ``yint``."""
     x = (tq - t_s) / h_s
@@ -450,7 +450,7 @@ def radau_interp(tq, t_s, h_s, y_s, qd, yint):
         yint[i] = y_s[i] + qd[0, i] * x + qd[1, i] * x2 + qd[2, i] * x3
 
 
-@radau_njit(cache=True)
+@radau_njit(cache=True, inline="always")
 def radau_emit_at(record_fn, t, y, p, m, d, w, out_t0, out_dt, t_lim, buf, buf_t, ti):
     """Rows with row time <= t_lim recorded from the current state; stops when buf is full."""
     cap = buf.shape[0]
@@ -468,7 +468,7 @@ def radau_emit_at(record_fn, t, y, p, m, d, w, out_t0, out_dt, t_lim, buf, buf_t
     ti[radau_I_NROWS] = nr
 
 
-@radau_njit(cache=True)
+@radau_njit(cache=True, inline="always")
 def radau_emit_interp(record_fn, t_s, h_s, y_s, qd, p, m, d, w, out_t0, out_dt, t_lim, buf, buf_t, ti, yint):
     """Rows with row time <= t_lim interpolated from the last step's polynomial."""
     cap = buf.shape[0]
@@ -487,7 +487,7 @@ def radau_emit_interp(record_fn, t_s, h_s, y_s, qd, p, m, d, w, out_t0, out_dt, 
     ti[radau_I_NROWS] = nr
 
 
-@radau_njit(cache=True)
+@radau_njit(cache=True, inline="always")
 def radau_event_value(events_fn, k, tq, t_s, h_s, y_s, qd, p, m, d, w, yint, gtmp, stats):
     radau_interp(tq, t_s, h_s, y_s, qd, yint)
     events_fn(tq, yint, p, m, d, w, gtmp)
@@ -495,7 +495,7 @@ def radau_event_value(events_fn, k, tq, t_s, h_s, y_s, qd, p, m, d, w, yint, gtm
     return gtmp[k]
 
 
-@radau_njit(cache=True)
+@radau_njit(cache=True, inline="always")
 def radau_crossing(go, gn, direction):
     """True when (go, gn) is a sign change in the watched direction (see the module docstring)."""
     if go < 0.0 and gn >= 0.0 and direction >= 0:
@@ -505,7 +505,7 @@ def radau_crossing(go, gn, direction):
     return False
 
 
-@radau_njit(cache=True)
+@radau_njit(cache=True, inline="always")
 def radau_locate(events_fn, t_s, h_s, t_new, y_s, qd, p, m, d, w, g_old, g_st, g_new, event_dir, tol,
                  stage_checks, yint, gtmp, ev_hit, ev_root, stats):
     """Earliest state event(s) in (t_s, t_new] on the dense output.
@@ -640,7 +640,7 @@ def radau_borrow(typingctx, arr):
     return arr(arr), codegen
 
 
-@radau_njit(cache=True)
+@radau_njit(cache=True, error_model="numpy")
 def radau_integrate(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, jacobian_fn, t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
                     opt, iopt, buf, buf_t, log_t, log_comp, log_kind, log_index, comp_scratch,
                     tf, ti, jac, lu_r, lu_c, lu_a, piv, f0, g_old, qd, y_fail, stats, scratch):
@@ -665,7 +665,7 @@ def radau_integrate(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_ti
                       b(evs[0]), b(evs[3:5]), b(evs[1]), b(ev_hits), b(evs[2]), b(m_prevs), b(algs))
 
 
-@radau_njit(cache=True)
+@radau_njit(cache=True, error_model="numpy")
 def radau_loop(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, jacobian_fn, t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
                opt, iopt, buf, buf_t, log_t, log_comp, log_kind, log_index, comp_scratch,
                tf, ti, jac, lu_r, lu_c, lu_a, piv, f0, g_old, qd, y_fail, stats,
