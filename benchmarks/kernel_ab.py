@@ -1,8 +1,9 @@
-"""Side-by-side timing of the compiled Radau kernel against a frozen copy (benchmarks/_kernel_base.py).
+"""Side-by-side timing of the compiled Radau kernel against the kernel of an earlier revision.
 
 Both kernels run in one process, alternately, on the emsim benchmark drives; prints the
 median of 7 wall times for 10 s simulated, the ratio new/base, and the solver statistics.
-Refresh the frozen copy with ``git show <rev>:emsim/solvers/radau_kernel.py > benchmarks/_kernel_base.py``.
+The base kernel is read from git (``python benchmarks/kernel_ab.py [REV]``, default HEAD)
+into a temporary module, so no copy of the kernel lives in the repository.
 """
 from __future__ import annotations
 
@@ -16,7 +17,27 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 import emsim  # noqa: E402
 import emsim.solvers.compiled as comp  # noqa: E402
 from emsim.solvers import radau_kernel as new_k  # noqa: E402
-import _kernel_base as base_k  # noqa: E402
+import importlib.util  # noqa: E402
+import subprocess  # noqa: E402
+import tempfile  # noqa: E402
+
+
+def _kernel_at(rev: str):
+    """Import emsim/solvers/radau_kernel.py as it was at ``rev`` (a temporary module)."""
+    root = Path(__file__).resolve().parents[1]
+    text = subprocess.run(["git", "-C", str(root), "show", f"{rev}:emsim/solvers/radau_kernel.py"],
+                          check=True, capture_output=True, text=True).stdout
+    folder = Path(tempfile.mkdtemp(prefix="emsim_kernel_ab_"))
+    path = folder / "emsim_kernel_base.py"
+    path.write_text(text)
+    spec = importlib.util.spec_from_file_location("emsim_kernel_base", path)
+    mod = importlib.util.module_from_spec(spec)
+    sys.modules["emsim_kernel_base"] = mod
+    spec.loader.exec_module(mod)
+    return mod
+
+
+base_k = _kernel_at(sys.argv[1] if len(sys.argv) > 1 and __name__ == "__main__" else "HEAD")
 import drive_model as dm  # noqa: E402
 import emsim_side  # noqa: E402
 
@@ -57,4 +78,4 @@ def main(variants=None, rtols=(1e-4, 1e-6, 1e-8)):
 
 
 if __name__ == "__main__":
-    main(sys.argv[1:] or None)
+    main()
