@@ -63,6 +63,7 @@ def main(path: str = "parcel_conveyor.h5", seconds: float = 20.0) -> None:
               f"losses {e['loss']:.1f} J; stored change {e['stored_change']:.2f} J")
         print(f"  first-law residual   {e['residual']:.3e} J (relative {e['relative_residual']:.1e})")
         print(f"  solver: {run.stats.get('steps', '?')} steps, {len(res.events)} events logged")
+        print("  (design estimates only: check against measurements; see the safety note in README.md)")
 
 
 if __name__ == "__main__":
