@@ -19,18 +19,13 @@ import numpy as np
 import pytest
 from scipy.integrate import cumulative_trapezoid, solve_ivp
 
-from helpers import MOTOR, build_battery_motor, run, solver_params, tol
+from helpers import MOTOR, build_battery_motor, run, tol
 
 VOC, R_INT, Q, A, SOC0 = 12.0, 0.2, 100.0, 2.0, 0.9
 R, L = MOTOR["resistance"], MOTOR["inductance"]
 T_END, DT = 5.0, 1e-3
 
 _runs: dict = {}
-
-
-@pytest.fixture(scope="module", **solver_params())
-def solver(request):
-    return request.param
 
 
 @pytest.fixture(scope="module")

@@ -14,16 +14,11 @@ import numpy as np
 import pytest
 
 import emsim
-from helpers import build_friction, run, solver_params, tol
+from helpers import build_friction, run, tol
 
 J, TC, W0, CREEP = 0.1, 0.5, 10.0, 1e-6
 
 _runs: dict = {}
-
-
-@pytest.fixture(scope="module", **solver_params())
-def solver(request):
-    return request.param
 
 
 def cached(key, solver, build, t_end, out_dt):

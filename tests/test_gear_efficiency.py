@@ -23,7 +23,7 @@ from emsim.assembly.codegen import POWER_DEADBAND
 import pytest
 from scipy.integrate import solve_ivp
 
-from helpers import MOTOR, V_SUPPLY, build_dc_motor, build_geared_drive, run, solver_params, tol
+from helpers import MOTOR, V_SUPPLY, build_dc_motor, build_geared_drive, run, tol
 
 R, K = MOTOR["resistance"], MOTOR["torque_constant"]
 N, ETA, T_LOAD, J_LOAD, J_ROTOR = 10.0, 0.8, 2.0, 0.05, 1e-3
@@ -32,11 +32,6 @@ N, ETA, T_LOAD, J_LOAD, J_ROTOR = 10.0, 0.8, 2.0, 0.05, 1e-3
 T_END = 6.0
 
 _runs: dict = {}
-
-
-@pytest.fixture(scope="module", **solver_params())
-def solver(request):
-    return request.param
 
 
 def cached(key, solver, build, t_end=T_END, out_dt=0.01):

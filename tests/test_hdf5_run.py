@@ -16,16 +16,11 @@ import pytest
 
 import emsim
 from emsim.model.declarations import DOMAINS
-from helpers import build_geared_drive, run, solver_params
+from helpers import build_geared_drive, run
 
 T_END, DT = 0.5, 0.005
 
 _runs: dict = {}
-
-
-@pytest.fixture(scope="module", **solver_params())
-def solver(request):
-    return request.param
 
 
 def build():

@@ -19,18 +19,13 @@ import numpy as np
 import pytest
 import scipy.signal
 
-from helpers import MOTOR, V_SUPPLY, build_dc_motor, run, solver_params, tol
+from helpers import MOTOR, V_SUPPLY, build_dc_motor, run, tol
 
 R, L, K = MOTOR["resistance"], MOTOR["inductance"], MOTOR["torque_constant"]
 J, B = 0.01, 1e-3
 V = V_SUPPLY
 
 _runs: dict = {}
-
-
-@pytest.fixture(scope="module", **solver_params())
-def solver(request):
-    return request.param
 
 
 def cached(key, solver, build, t_end, out_dt):

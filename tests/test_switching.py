@@ -16,7 +16,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from helpers import MOTOR, build_dc_motor, run, solver_params, tol
+from helpers import MOTOR, build_dc_motor, run, tol
 
 R, L = MOTOR["resistance"], MOTOR["inductance"]
 TAU = L / R
@@ -24,11 +24,6 @@ SCHEDULE = [(0.0, 12.0), (0.1, 0.0), (0.2, 6.0)]   # on, off (0 V: freewheel), h
 T_END, DT = 0.3, 1e-3
 
 _runs: dict = {}
-
-
-@pytest.fixture(scope="module", **solver_params())
-def solver(request):
-    return request.param
 
 
 @pytest.fixture(scope="module")

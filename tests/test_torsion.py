@@ -15,18 +15,13 @@ import math
 import numpy as np
 import pytest
 
-from helpers import build_geared_torsion, build_torsion, crossings, run, solver_params, tol
+from helpers import build_geared_torsion, build_torsion, crossings, run, tol
 
 J1, J2, KS = 0.02, 0.05, 200.0
 JG, N = 0.002, 4.0
 T_END, DT = 0.5, 2e-4   # ~9 periods of the two-rotor mode (53 ms)
 
 _runs: dict = {}
-
-
-@pytest.fixture(scope="module", **solver_params())
-def solver(request):
-    return request.param
 
 
 def cached(key, solver, build):
