@@ -87,7 +87,7 @@ class _Audit:
         if len(t):
             self.sink.events(t, component, kind, index)
 
-    def summary(self, rtol: float) -> dict:
+    def summary(self) -> dict:
         if self.first is None:
             return {}
         g = lambda row, key: float(row[self.idx[key]])
@@ -168,7 +168,7 @@ def simulate(system: System | Problem, t_end, *, out_dt=None, output: str | os.P
             sink.close(ok=False, error=f"{type(exc).__name__}: {exc}")
         raise
     wall = time.perf_counter() - start
-    energy = audit.summary(getattr(solver, "rtol", 1e-6))
+    energy = audit.summary()
     if output is not None:
         sink.set_summary(energy)
         sink.set_stats({k: v for k, v in stats.items() if isinstance(v, (int, float))})

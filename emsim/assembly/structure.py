@@ -99,7 +99,6 @@ def analyse(system: System) -> Structure:
             i = parent[i]
         return i
 
-    names_for_root: dict[int, str] = {}
     joined = set()
     for refs, name in system.links:
         first = by_ref[refs[0]].glob
@@ -109,8 +108,6 @@ def analyse(system: System) -> Structure:
             ra, rb = find(first), find(g)
             if ra != rb:
                 parent[rb] = ra
-        if name:
-            names_for_root[id(refs)] = name
     root_name: dict[int, str] = {}
     for refs, name in system.links:
         if name:
@@ -157,8 +154,7 @@ def analyse(system: System) -> Structure:
             across = DOMAINS[node.domain][0]
             raise AssemblyError(f"system '{system.name}': node '{node.name}' is over-determined: {fixers} each "
                                 f"impose its {across}; put an impedance between them or remove one")
-        if len(node.members) == 1 and not fixers and not node.capacities and node.domain != "rotational":
-            pass  # a lone port; the numeric check at assembly decides if it is determined
+        # a node nothing determines is found by the numeric rank check at assembly (assemble.py)
 
     couplings = _couplings(system, comps, ports, by_ref, port_node, nodes)
     groups = _groups(system, nodes, couplings)
