@@ -53,6 +53,12 @@ def kernel_fingerprint(cls) -> str:
     return "\n".join(parts)
 
 
+def _stamp_terms(lay: Layout) -> list[str]:
+    """What system_rhs's result depends on besides p: t, the main rows, discrete states, modes."""
+    return (["t"] + [f"y[{i}]" for i in range(lay.n_main)] + [f"d[{i}]" for i in range(len(lay.d0))]
+            + [f"float(m[{i}])" for i in range(lay.m_size)])
+
+
 def generate(st: Structure, lay: Layout) -> tuple[str, list[str], list[str], str]:
     """Return (source, record_names, record_units, fingerprint of the kernels used)."""
     comps = st.components
@@ -67,7 +73,7 @@ def generate(st: Structure, lay: Layout) -> tuple[str, list[str], list[str], str
     src("import math")
     src("import numpy as np")
     src("import numba as nb")
-    src("from emsim.assembly.runtime import resolve_class")
+    src("from emsim.assembly.runtime import resolve_class, view")
     src()
     for cls in classes:
         i = cid[cls]
@@ -82,7 +88,7 @@ def generate(st: Structure, lay: Layout) -> tuple[str, list[str], list[str], str
 
     def sl(arr, rng, base=""):
         a, b = rng
-        return f"{arr}[{base}{a}:{base}{b}]"
+        return f"view({arr}, {base}{a}, {base}{b})"
 
     def pidx(ci, pname):
         return lay.comp[ci].p[0] + comps[ci].scalar_index(pname)
@@ -181,11 +187,27 @@ def generate(st: Structure, lay: Layout) -> tuple[str, list[str], list[str], str
         else:
             src(f"dy[{r}] = torque", 1)
             src(f"w[{W['ACC']}+{g.index}] = 0.0", 1)
+    # stamp the inputs, so the functions below can reuse this evaluation (see system_fresh)
+    stamp = _stamp_terms(lay)
+    src(f"w[{W['STAMP']}] = 1.0", 1)
+    for k, term in enumerate(stamp):
+        src(f"w[{W['STAMP'] + 1 + k}] = {term}", 1)
     src("return", 1)
     src()
 
+    src(_JIT)
+    src("def system_fresh(t, y, m, d, w):")
+    src('"""True when the work array already holds system_rhs at exactly these (t, y, m, d)."""', 1)
+    tests = [f"w[{W['STAMP']}] == 1.0"] + [f"w[{W['STAMP'] + 1 + k}] == {term}" for k, term in enumerate(stamp)]
+    src("return (" + "\n            and ".join(tests) + ")", 1)
+    src()
+
     n_main = lay.n_main
-    eval_scratch = f"system_rhs(t, y, p, m, d, w, w[{W['DX']}:{W['DX'] + n_main}])"
+    # every function that needs the ports' through variables evaluates the rhs first, unless the
+    # last evaluation was at the same inputs (the integrator calls events, time events and record
+    # at the point of its last rhs call; p is fixed during a run)
+    eval_scratch = (f"if not system_fresh(t, y, m, d, w): "
+                    f"system_rhs(t, y, p, m, d, w, view(w, {W['DX']}, {W['DX'] + n_main}))")
     lossy = [k for k, c in enumerate(st.couplings) if c.efficiency is not None]
 
     # ---------------------------------------------------------------- coupling torques
@@ -226,7 +248,7 @@ def generate(st: Structure, lay: Layout) -> tuple[str, list[str], list[str], str
             for nm in names:
                 src(f"{kind} += w[{W['OUT']}+{s.out[0] + onames.index(nm)}]", 1)
     if lossy:
-        src(f"system_coupling_torque(y, p, m, w, w[{W['GX']}:{W['GX'] + len(lossy)}])", 1)
+        src(f"system_coupling_torque(y, p, m, w, view(w, {W['GX']}, {W['GX'] + len(lossy)}))", 1)
         for j, k in enumerate(lossy):
             c = st.couplings[k]
             pe = pidx(c.comp, c.efficiency)
@@ -247,7 +269,7 @@ def generate(st: Structure, lay: Layout) -> tuple[str, list[str], list[str], str
         if comp.events:
             src(call(ci, "event_values", extra=sl("g", lay.comp[ci].g)), 1)
     if lossy:
-        src(f"system_coupling_torque(y, p, m, w, w[{W['GX']}:{W['GX'] + len(lossy)}])", 1)
+        src(f"system_coupling_torque(y, p, m, w, view(w, {W['GX']}, {W['GX'] + len(lossy)}))", 1)
         for j, k in enumerate(lossy):
             grow = lay.group_row[st.nodes[st.couplings[k].child].group]
             # hysteresis: switch only once the power is clearly reversed (no chatter around standstill)
@@ -317,7 +339,7 @@ def generate(st: Structure, lay: Layout) -> tuple[str, list[str], list[str], str
         for k in lossy:
             src(f"m[{lay.coupling_mode[k]}] = 0", 1)
         src(eval_scratch, 1)
-        src(f"system_coupling_torque(y, p, m, w, w[{W['GX']}:{W['GX'] + len(lossy)}])", 1)
+        src(f"system_coupling_torque(y, p, m, w, view(w, {W['GX']}, {W['GX'] + len(lossy)}))", 1)
         for j, k in enumerate(lossy):
             gi = st.nodes[st.couplings[k].child].group
             grow = lay.group_row[gi]

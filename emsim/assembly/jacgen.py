@@ -43,7 +43,7 @@ def generate_jacobian(st: Structure, lay: Layout, jit: str, kern, args_core, nod
     if not ok:
         lines += ["    return 0", ""]
         return "\n".join(lines) + "\n"
-    lines.append(f"    system_rhs(t, y, p, m, d, w, w[{W['DX']}:{W['DX'] + n}])")
+    lines.append(f"    system_rhs(t, y, p, m, d, w, view(w, {W['DX']}, {W['DX'] + n}))")
     lines.append(f"    for i in range({n}):")
     lines.append(f"        for j in range({n}):")
     lines.append("            jac[i, j] = 0.0")
