@@ -971,11 +971,12 @@ def radau_loop(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn
         n_hit = 0
         f0_at_new = False
         if n_ev > 0:
-            # the right-hand side at the step end first: the event functions then reuse its
-            # evaluation (generated systems skip a repeated evaluation at the same inputs)
-            rhs_fn(t_new, ynew, p, m, d, w, f0)
-            stats[radau_S_RHS] += 1
-            f0_at_new = True
+            if t_new < tf[radau_F_TN] - 64.0 * radau_EPS * max(1.0, abs(t_new)):
+                # not a time event: the next step needs f(t_new) anyway, so evaluate it first and let
+                # the event functions reuse it (generated systems skip an evaluation at the same inputs)
+                rhs_fn(t_new, ynew, p, m, d, w, f0)
+                stats[radau_S_RHS] += 1
+                f0_at_new = True
             events_fn(t_new, ynew, p, m, d, w, g_new)
             stats[radau_S_EVENT_FN] += 1
             if stage_checks:
