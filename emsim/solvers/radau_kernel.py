@@ -137,6 +137,7 @@ radau_F_TANCHOR = 8    # first event time of the current event cluster (chatteri
 radau_F_ETA = 9        # Newton contraction memory
 radau_F_TFAIL = 10     # time of a failure
 radau_F_HFAIL = 11     # step size at a failure
+radau_F_HPOST = 12     # step size the error of the last first-step-after-a-time-event asked for (0: none yet)
 radau_NF = 16
 
 # Persistent integer memory ``ti``.
@@ -153,6 +154,7 @@ radau_I_FIRST = 9      # first step (or first after a state event)
 radau_I_NINST = 10     # events in the current cluster (chattering)
 radau_I_FAILINFO = 11  # row / event index related to a failure (-1 none)
 radau_I_REJ = 12       # the current step was rejected at least once
+radau_I_POSTEV = 13    # the next step is the first after a time event
 radau_NI = 16
 
 # Statistics ``stats`` (int64, persistent).
@@ -752,6 +754,11 @@ def radau_loop(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn
         h = h_fixed if fixed else tf[radau_F_H]
         if h > max_step:
             h = max_step
+        if ti[radau_I_POSTEV] == 1 and not fixed and 0.0 < tf[radau_F_HPOST] < h:
+            # a time event may have changed inputs (a new duty, a new set point): start with the step
+            # size the previous such restart asked for, instead of the smooth-flow proposal that the
+            # excited transient would reject (sampled systems restart alike every sample)
+            h = tf[radau_F_HPOST]
         target = min(tf[radau_F_TN], t_end)
         rem = target - t
         lands = False
@@ -950,6 +957,8 @@ def radau_loop(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn
         if not fixed:
             fac = min(radau_SAFE, radau_SAFE * (1 + 2 * radau_MAXIT) / (nit + 2 * radau_MAXIT))
             quot = max(0.125, min(5.0, radau_math.sqrt(radau_math.sqrt(errn)) / fac))
+            if ti[radau_I_POSTEV] == 1:
+                tf[radau_F_HPOST] = h / quot
             if ti[radau_I_FIRST] == 0 and tf[radau_F_HACC] > 0.0:
                 facgus = (tf[radau_F_HACC] / h) * radau_math.sqrt(radau_math.sqrt(errn * errn / tf[radau_F_ERRACC])) / radau_SAFE
                 facgus = max(0.125, min(5.0, facgus))
@@ -965,6 +974,7 @@ def radau_loop(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn
         ti[radau_I_JACNOW] = 0
         ti[radau_I_FIRST] = 0
         ti[radau_I_REJ] = 0
+        ti[radau_I_POSTEV] = 0
 
         # ---- state events on the step ----
         t_ev = t_new
@@ -1057,6 +1067,7 @@ def radau_loop(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn
                 log_index[nlog] = -1
                 nlog += 1
             stats[radau_S_TIME_EVENTS] += cnt
+            ti[radau_I_POSTEV] = 1
             for i in range(m.shape[0]):
                 if m[i] != m_prev[i]:
                     ti[radau_I_JAC] = 0
