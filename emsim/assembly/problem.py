@@ -19,6 +19,9 @@ array the generated code uses for port and signal buffers)::
     system_record(t, y, p, m, d, w, row)      # fill one output row (n_record values)
     system_jacobian(t, y, p, m, d, w, jac)    # fill d(dy)/dy (n_main x n_main) and return 1, or
                                               #   return 0: the solver uses finite differences
+    system_stages(ts, y, z, ys, p, m, d, w, f, fq, want_quad)
+                                              # the three Radau stage evaluations at once (written
+                                              #   once for all modules in emsim.solvers.abi)
 
 ``y`` holds ``n_main`` main rows followed by ``n_quad`` quadrature rows; the
 quadrature rows never feed back into the main rows. The module also exports

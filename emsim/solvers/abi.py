@@ -18,7 +18,7 @@ _I = types.Array(types.int64, 1, "C")
 _A2 = types.Array(types.float64, 2, "C")
 
 #: Order in which the callbacks are passed to ``radau_integrate``.
-ORDER = ("rhs", "quad", "events", "on_event", "next_time", "at_time", "start", "record", "jacobian")
+ORDER = ("rhs", "quad", "events", "on_event", "next_time", "at_time", "start", "record", "jacobian", "stages")
 
 SIGNATURES = {
     "rhs": types.void(_f8, _A, _A, _I, _A, _A, _A),
@@ -31,6 +31,10 @@ SIGNATURES = {
     "record": types.void(_f8, _A, _A, _I, _A, _A, _A),
     # fills the n_main x n_main Jacobian and returns 1, or returns 0: use finite differences
     "jacobian": types.int64(_f8, _A, _A, _I, _A, _A, _A2),
+    # the three stage evaluations of one Newton iteration in one call: for s = 0, 1, 2 the rhs
+    # f[s] = f(ts[s], y + z[s]) on the main rows and, if want_quad, the quadrature integrands
+    # fq[s] at the same point (ys: scratch of y's length)
+    "stages": types.void(_A, _A, _A2, _A, _A, _I, _A, _A, _A2, _A2, _i8),
 }
 
 
@@ -44,13 +48,30 @@ ARGS = {
     "start": "t, y, p, m, d, w",
     "record": "t, y, p, m, d, w, row",
     "jacobian": "t, y, p, m, d, w, jac",
+    "stages": "ts, y, z, ys, p, m, d, w, f, fq, want_quad",
 }
+
+# ``system_stages`` is the same for every module: written here once, in terms of the module's own
+# system_rhs and system_quad (the latter reuses the former's evaluation where the module supports it)
+_STAGES_SOURCE = """
+@_abi_numba.njit(cache=True, error_model="numpy")
+def system_stages(ts, y, z, ys, p, m, d, w, f, fq, want_quad):
+    n = f.shape[1]
+    for j in range(n, y.shape[0]):
+        ys[j] = y[j]
+    for s in range(3):
+        for j in range(n):
+            ys[j] = y[j] + z[s, j]
+        system_rhs(ts[s], ys, p, m, d, w, f[s])
+        if want_quad != 0:
+            system_quad(ts[s], ys, p, m, d, w, fq[s])
+"""
 
 
 def export_source() -> str:
     """Lines a generated module appends to export its ``system_*`` functions as callbacks."""
     lines = ["", "from emsim.solvers.abi import SIGNATURES as _abi_signatures",
-             "import numba as _abi_numba", ""]
+             "import numba as _abi_numba", _STAGES_SOURCE]
     for name, args in ARGS.items():
         # a thin Python-level wrapper: numba's cache needs a plain function, not a dispatcher
         lines += [f"def _abi_{name}({args}):",

@@ -27,16 +27,19 @@ only the error-estimate weights are the published values.
 
 How this file is used
 ---------------------
-``radau_integrate`` takes the problem's system functions as its first eight
+``radau_integrate`` takes the problem's system functions as its first ten
 arguments: C callbacks with the fixed signatures of :mod:`emsim.solvers.abi`
 (``rhs``, ``quad``, ``events``, ``on_event``, ``next_time``, ``at_time``,
-``start``, ``record``; their contract is in ``emsim/assembly/problem.py``).
+``start``, ``record``, ``jacobian``, ``stages``; their contract is in
+``emsim/assembly/problem.py`` and ``abi.py``).
 Because those argument types are signatures, not particular functions, numba
 compiles and caches this kernel once for every system; a new system compiles
 only its own small functions. Helpers receive the callbacks they need.
 
 Quadrature rows ``y[n_main:]`` are integrated by the same collocation formula
-(``Z_q = h A F_q`` at the converged stage points), appear in dense output, and
+(``Z_q = h A F_q`` at the stage points of the last Newton iteration, which
+differ from the converged ones by less than the Newton tolerance), appear in
+dense output, and
 are excluded from the error norm (they never feed back, so they cannot make a
 step fail; their accuracy follows that of the main rows).
 
@@ -227,15 +230,22 @@ def radau_factor(h, jac, mass, n, lu_r, lu_c, piv):
 
 
 @radau_njit(cache=True, inline="always")
-def radau_newton(rhs_fn, t, h, y, p, m, d, w, mass, n, sc, z, wt, f, ys, br, bc,
+def radau_newton(stages_fn, t, h, y, p, m, d, w, mass, n, sc, z, wt, f, fq, want_quad, ts3, ys, br, bc,
                  lu_r, lu_c, piv, eta0, fnewt, maxit, y_fail, tf, stats):
     """Simplified Newton iteration on the transformed collocation system.
 
     ``z[:, :n]`` holds the starting stage increments and, on success, the
-    converged ones. Returns (code, iterations, rate, eta): code 0 converged,
-    1 diverged or too slow, 2 non-finite right-hand side (stage state copied
-    to ``y_fail``, stage time to ``tf[F_TFAIL]``).
+    converged ones. Each iteration evaluates the three stages in one call
+    (``stages_fn``); with ``want_quad`` it also fills ``fq`` with the
+    quadrature integrands at the same points, so after the last iteration
+    ``fq`` holds them at the final iterate but one (the last correction is
+    below the Newton tolerance, far below the error tolerance). Returns (code,
+    iterations, rate, eta): code 0 converged, 1 diverged or too slow, 2
+    non-finite right-hand side (stage state copied to ``y_fail``, stage time to
+    ``tf[F_TFAIL]``).
     """
+    for s in range(3):
+        ts3[s] = t + radau_C[s] * h
     for j in range(n):
         for k in range(3):
             wt[k, j] = radau_TI[k, 0] * z[0, j] + radau_TI[k, 1] * z[1, j] + radau_TI[k, 2] * z[2, j]
@@ -246,11 +256,10 @@ def radau_newton(rhs_fn, t, h, y, p, m, d, w, mass, n, sc, z, wt, f, ys, br, bc,
     dw_old = 1.0
     rate = 0.0
     for it in range(maxit):
-        for s in range(3):
-            for j in range(n):
-                ys[j] = y[j] + z[s, j]
-            rhs_fn(t + radau_C[s] * h, ys, p, m, d, w, f[s])
+        stages_fn(ts3, y, z, ys, p, m, d, w, f, fq, want_quad)
         stats[radau_S_RHS] += 3
+        if want_quad != 0:
+            stats[radau_S_QUAD] += 3
         stats[radau_S_NEWTON] += 1
         for s in range(3):
             if not radau_dense.all_finite(f[s], n):
@@ -616,7 +625,8 @@ def radau_scratch(n_main, n_tot, n_events, n_modes):
             radau_np.zeros((5, e1)),        # g_new, gtmp, ev_root, g_st (2 rows)
             radau_np.zeros(e1, dtype=radau_np.bool_),       # ev_hit
             radau_np.zeros(max(n_modes, 1), dtype=radau_np.int64),  # m_prev
-            radau_np.zeros(n1, dtype=radau_np.int64))       # alg: algebraic row indices
+            radau_np.zeros(n1, dtype=radau_np.int64),       # alg: algebraic row indices
+            radau_np.zeros(3))                              # ts3: stage times
 
 
 @radau_intrinsic
@@ -643,7 +653,7 @@ def radau_borrow(typingctx, arr):
 
 
 @radau_njit(cache=True, error_model="numpy")
-def radau_integrate(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, jacobian_fn, t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
+def radau_integrate(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, jacobian_fn, stages_fn, t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
                     opt, iopt, buf, buf_t, log_t, log_comp, log_kind, log_index, comp_scratch,
                     tf, ti, jac, lu_r, lu_c, lu_a, piv, f0, g_old, qd, y_fail, stats, scratch):
     """Integrate from ``tf[F_T]`` towards ``t_end``; return a status code.
@@ -655,24 +665,24 @@ def radau_integrate(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_ti
     :func:`radau_scratch`'s tuple. Every array is passed on as a borrowed
     view (:func:`radau_borrow`): the caller keeps the arrays alive.
     """
-    zs, wts, fs, fqs, vec, small, bcs, evs, ev_hits, m_prevs, algs = scratch
+    zs, wts, fs, fqs, vec, small, bcs, evs, ev_hits, m_prevs, algs, ts3s = scratch
     b = radau_borrow
     return radau_loop(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, jacobian_fn,
-                      t_end, b(y), b(p), b(m), b(d), b(w), b(mass), b(atol), b(nominal), b(event_dir), n_main,
+                      stages_fn, t_end, b(y), b(p), b(m), b(d), b(w), b(mass), b(atol), b(nominal), b(event_dir), n_main,
                       b(opt), b(iopt), b(buf), b(buf_t), b(log_t), b(log_comp), b(log_kind), b(log_index),
                       b(comp_scratch), b(tf), b(ti), b(jac), b(lu_r), b(lu_c), b(lu_a), b(piv), b(f0), b(g_old),
                       b(qd), b(y_fail), b(stats),
                       b(zs), b(wts), b(fs), b(fqs), b(vec[0]), b(vec[1]), b(vec[2]), b(vec[3]), b(vec[4]),
                       b(vec[5]), b(small[0]), b(bcs), b(small[1]), b(small[2]), b(small[3]), b(small[4]),
-                      b(evs[0]), b(evs[3:5]), b(evs[1]), b(ev_hits), b(evs[2]), b(m_prevs), b(algs))
+                      b(evs[0]), b(evs[3:5]), b(evs[1]), b(ev_hits), b(evs[2]), b(m_prevs), b(algs), b(ts3s))
 
 
 @radau_njit(cache=True, error_model="numpy")
-def radau_loop(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, jacobian_fn, t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
+def radau_loop(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, jacobian_fn, stages_fn, t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
                opt, iopt, buf, buf_t, log_t, log_comp, log_kind, log_index, comp_scratch,
                tf, ti, jac, lu_r, lu_c, lu_a, piv, f0, g_old, qd, y_fail, stats,
                z, wt, f, fq, ys, ynew, yold, yint, ysave, sc, br, bc, ftmp, err, zm, dz,
-               g_new, g_st, gtmp, ev_hit, ev_root, m_prev, alg):
+               g_new, g_st, gtmp, ev_hit, ev_root, m_prev, alg, ts3):
     """The step loop of :func:`radau_integrate` (all arrays borrowed views, scratch included)."""
     n = n_main
     n_tot = y.shape[0]
@@ -691,6 +701,7 @@ def radau_loop(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn
     max_steps = iopt[1]
     stage_checks = iopt[3] != 0
     fnewt = max(10.0 * radau_EPS / rtol, min(0.03, radau_math.sqrt(rtol)))
+    want_quad = 1 if n_quad > 0 else 0
     maxit = 30 if fixed else radau_MAXIT
 
     n_alg = 0
@@ -849,7 +860,8 @@ def radau_loop(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn
             for i in range(n, n_tot):
                 ys[i] = y[i]
             eta0 = max(tf[radau_F_ETA], radau_EPS) ** 0.8
-            code, nit, rate, eta = radau_newton(rhs_fn, t, h, y, p, m, d, w, mass, n, sc, z, wt, f, ys, br, bc,
+            code, nit, rate, eta = radau_newton(stages_fn, t, h, y, p, m, d, w, mass, n, sc, z, wt, f, fq,
+                                                want_quad, ts3, ys, br, bc,
                                                 lu_r, lu_c, piv, eta0, fnewt, maxit, y_fail, tf, stats)
             if code != 0:
                 n_fail += 1
@@ -922,11 +934,7 @@ def radau_loop(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn
         h_s = h
         t_new = t_land if lands else t + h
         if n_quad > 0:
-            for s in range(3):
-                for j in range(n):
-                    ys[j] = y[j] + z[s, j]
-                quad_fn(t + radau_C[s] * h, ys, p, m, d, w, fq[s])
-            stats[radau_S_QUAD] += 3
+            # fq: the integrands of the accepted step's last Newton iteration (see radau_newton)
             for s in range(3):
                 if not radau_dense.all_finite(fq[s], n_quad):
                     for j in range(n):
