@@ -53,12 +53,6 @@ def kernel_fingerprint(cls) -> str:
     return "\n".join(parts)
 
 
-def _stamp_terms(lay: Layout) -> list[str]:
-    """What system_rhs's result depends on besides p: t, the main rows, discrete states, modes."""
-    return (["t"] + [f"y[{i}]" for i in range(lay.n_main)] + [f"d[{i}]" for i in range(len(lay.d0))]
-            + [f"float(m[{i}])" for i in range(lay.m_size)])
-
-
 def generate(st: Structure, lay: Layout) -> tuple[str, list[str], list[str], str]:
     """Return (source, record_names, record_units, fingerprint of the kernels used)."""
     comps = st.components
@@ -187,27 +181,13 @@ def generate(st: Structure, lay: Layout) -> tuple[str, list[str], list[str], str
         else:
             src(f"dy[{r}] = torque", 1)
             src(f"w[{W['ACC']}+{g.index}] = 0.0", 1)
-    # stamp the inputs, so the functions below can reuse this evaluation (see system_fresh)
-    stamp = _stamp_terms(lay)
-    src(f"w[{W['STAMP']}] = 1.0", 1)
-    for k, term in enumerate(stamp):
-        src(f"w[{W['STAMP'] + 1 + k}] = {term}", 1)
     src("return", 1)
     src()
 
-    src(_JIT)
-    src("def system_fresh(t, y, m, d, w):")
-    src('"""True when the work array already holds system_rhs at exactly these (t, y, m, d)."""', 1)
-    tests = [f"w[{W['STAMP']}] == 1.0"] + [f"w[{W['STAMP'] + 1 + k}] == {term}" for k, term in enumerate(stamp)]
-    src("return (" + "\n            and ".join(tests) + ")", 1)
-    src()
-
     n_main = lay.n_main
-    # every function that needs the ports' through variables evaluates the rhs first, unless the
-    # last evaluation was at the same inputs (the integrator calls events, time events and record
-    # at the point of its last rhs call; p is fixed during a run)
-    eval_scratch = (f"if not system_fresh(t, y, m, d, w): "
-                    f"system_rhs(t, y, p, m, d, w, view(w, {W['DX']}, {W['DX'] + n_main}))")
+    # every function that needs the ports' through variables evaluates the rhs first (measured: a
+    # stamp of the inputs to skip repeated evaluations cost more in every rhs call than it saved)
+    eval_scratch = f"system_rhs(t, y, p, m, d, w, view(w, {W['DX']}, {W['DX'] + n_main}))"
     lossy = [k for k, c in enumerate(st.couplings) if c.efficiency is not None]
 
     # ---------------------------------------------------------------- coupling torques
@@ -234,6 +214,11 @@ def generate(st: Structure, lay: Layout) -> tuple[str, list[str], list[str], str
     src(_JIT)
     src("def system_quad(t, y, p, m, d, w, dq):")
     src(eval_scratch, 1)
+    src("system_quad_at_rhs(t, y, p, m, d, w, dq)", 1)
+    src()
+    src(_JIT)
+    src("def system_quad_at_rhs(t, y, p, m, d, w, dq):")
+    src('"""system_quad when w already holds system_rhs at this point (the Radau stages)."""', 1)
     src("supplied = 0.0", 1)
     src("loss = 0.0", 1)
     src("delivered = 0.0", 1)

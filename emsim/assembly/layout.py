@@ -142,9 +142,7 @@ def lay_out(st: Structure) -> Layout:
     # work-array regions
     n_ports = port_i
     regions = [("PA", n_ports), ("PF", n_ports), ("S", si), ("U", ui), ("OUT", oi), ("DX", n_main),
-               ("SC", len(st.nodes)), ("ACC", len(st.groups)), ("GX", max(1, len(st.couplings))),
-               # inputs of the last rhs evaluation: valid flag, t, main rows, discrete states, modes
-               ("STAMP", 2 + n_main + len(d_init) + mi)]
+               ("SC", len(st.nodes)), ("ACC", len(st.groups)), ("GX", max(1, len(st.couplings)))]
     off = 0
     for name, size in regions:
         lay.work[name] = off

@@ -9,6 +9,7 @@ array the generated code uses for port and signal buffers)::
                                               #   residual on algebraic rows (mass 0)
     system_quad(t, y, p, m, d, w, dq)         # dq[:n_quad]: derivatives of the quadrature
                                               #   states y[n_main:] (energy accumulators)
+    system_quad_at_rhs(t, y, p, m, d, w, dq)  # the same, when w already holds system_rhs at (t, y)
     system_events(t, y, p, m, d, w, g)        # g[:n_events]: state-event functions
     system_on_event(k, t, y, p, m, d, w)      # apply state event k in place; returns the
                                               #   index of the owning component (int)

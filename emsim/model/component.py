@@ -29,8 +29,7 @@ Contract for a component class (numbered, like the rules of a solver):
    ``sample_period`` seconds from the start if that names a parameter, else at
    the instants ``next_time(t, p, m, d)`` returns (strictly after ``t``,
    ``inf`` for none). Every kernel treats ``a``, ``f``, ``u`` and ``p`` as
-   read-only: they are the system's shared values (the assembled system reuses
-   them between calls at the same time, states, modes and discrete states).
+   read-only: they are the system's shared values.
 4. Optionally ``jacobian(t, x, a, u, p, m, d, jx, ja)`` gives the partial
    derivatives of the outputs of ``equations``: rows are ``dx`` then ``f`` (one
    per port), ``jx`` columns the own states ``x``, ``ja`` columns the ports'

@@ -52,7 +52,7 @@ ARGS = {
 }
 
 # ``system_stages`` is the same for every module: written here once, in terms of the module's own
-# system_rhs and system_quad (the latter reuses the former's evaluation where the module supports it)
+# system_rhs and system_quad_at_rhs (system_quad without its own rhs evaluation)
 _STAGES_SOURCE = """
 @_abi_numba.njit(cache=True, error_model="numpy")
 def system_stages(ts, y, z, ys, p, m, d, w, f, fq, want_quad):
@@ -64,7 +64,7 @@ def system_stages(ts, y, z, ys, p, m, d, w, f, fq, want_quad):
             ys[j] = y[j] + z[s, j]
         system_rhs(ts[s], ys, p, m, d, w, f[s])
         if want_quad != 0:
-            system_quad(ts[s], ys, p, m, d, w, fq[s])
+            system_quad_at_rhs(ts[s], ys, p, m, d, w, fq[s])
 """
 
 

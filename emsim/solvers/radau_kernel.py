@@ -987,14 +987,7 @@ def radau_loop(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn
         # ---- state events on the step ----
         t_ev = t_new
         n_hit = 0
-        f0_at_new = False
         if n_ev > 0:
-            if t_new < tf[radau_F_TN] - 64.0 * radau_EPS * max(1.0, abs(t_new)):
-                # not a time event: the next step needs f(t_new) anyway, so evaluate it first and let
-                # the event functions reuse it (generated systems skip an evaluation at the same inputs)
-                rhs_fn(t_new, ynew, p, m, d, w, f0)
-                stats[radau_S_RHS] += 1
-                f0_at_new = True
             events_fn(t_new, ynew, p, m, d, w, g_new)
             stats[radau_S_EVENT_FN] += 1
             if stage_checks:
@@ -1017,9 +1010,8 @@ def radau_loop(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn
         if time_due:
             t = tf[radau_F_TN]
         if n_hit == 0 and not time_due:
-            if not (f0_at_new and t == t_new):
-                rhs_fn(t, y, p, m, d, w, f0)
-                stats[radau_S_RHS] += 1
+            rhs_fn(t, y, p, m, d, w, f0)
+            stats[radau_S_RHS] += 1
             bad = radau_dense.first_nonfinite(f0, n)
             if bad >= 0:
                 for i in range(n_tot):

@@ -144,6 +144,7 @@ def compile_standalone(rhs, y0, *, n_main=None, mass=None, events=None, directio
                    body("rhs", ["t", "y", "dy"], ["t", "y", *pmd, "dy"]))
     lines += block("system_quad(t, y, p, m, d, w, dq)",
                    body("quad", ["t", "y", "dq"], ["t", "y", *pmd, "dq"]))
+    lines += ["system_quad_at_rhs = system_quad  # the user's quad evaluates what it needs itself", ""]
     lines += block("system_events(t, y, p, m, d, w, g)",
                    body("events", ["t", "y", "g"], ["t", "y", *pmd, "g"]))
     lines += block("system_on_event(k, t, y, p, m, d, w)",
