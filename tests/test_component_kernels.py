@@ -14,6 +14,7 @@ import numpy as np
 import pytest
 from scipy import integrate, optimize, signal
 
+import emsim
 from emsim.components import (AveragedBridge, Battery, CompliantShaft, ConstantTorque, CoulombFriction, Damper,
                               DCMotor, FanLoad, Gearbox, Inertia, RepeatingRamp, SampledPISpeed, SwitchedDCSource,
                               TableTorque)
@@ -267,7 +268,7 @@ def test_friction_events_stick_at_zero_speed_and_break_away_at_the_breakaway_tor
     z = Bench(fc, a=[0.0])
     z.start()
     assert z.m[0] == fr.STUCK
-    none = Bench(motor(), a=[0.0, 0.0])
+    none = Bench(CoulombFriction("none", coulomb_torque=0.0), a=[0.0])
     none.start()
     for mode in (0, 1, 2):
         none.m[0] = mode
@@ -522,3 +523,19 @@ def test_repeating_ramp_against_numpy_interp_and_corner_times():
     assert b.eq(delay + ru).s[0] == pytest.approx(hi) and b.eq(delay + ru + h + rd).s[0] == pytest.approx(lo)
     with pytest.raises(ParameterError, match="ramp_up.*positive length"):
         RepeatingRamp("r", high=1, ramp_up=0, hold=0, ramp_down=0, dwell=0)
+
+
+def test_motor_without_coulomb_friction_declares_no_events():
+    # common practice: zero Coulomb friction means zero friction torque in every stick/slip mode,
+    # so the assembled system carries no stick/slip event functions (as a lossless gear carries
+    # no power-flow mode); with friction both events are present
+    assert motor().events == ()
+    assert [e.name for e in motor(coulomb_friction=0.01).events] == ["speed_zero", "breakaway"]
+    assert [e.name for e in motor(breakaway_torque=0.01).events] == ["speed_zero", "breakaway"]
+    for kw, n_events in (({}, 0), ({"coulomb_friction": 0.01}, 2)):
+        drive = emsim.System("motor_on_inertia")
+        drive.add(SwitchedDCSource("src", times=[0.1], levels=[12.0]), motor(rotor_inertia=1e-4, **kw),
+                  Inertia("j", inertia=0.01))
+        drive.connect("src.terminal", "m.armature")
+        drive.connect("m.shaft", "j.shaft")
+        assert emsim.assemble(drive).n_events == n_events

@@ -131,7 +131,8 @@ def _probe_arguments(comp) -> dict:
     n = len(comp.states) + len(comp.ports)
     return {"equations": (0.0, x, a, u, p, m, d, z(len(comp.states)), f, s),
             "monitor": (0.0, x, a, f, u, p, m, d, out),
-            "event_values": (0.0, x, a, f, u, p, m, d, z(len(comp.events))),
+            # the class's events: an instance may drop its own (a motor without Coulomb friction)
+            "event_values": (0.0, x, a, f, u, p, m, d, z(len(type(comp).events))),
             "on_event": (0, 0.0, x, a, f, u, p, m, d),
             "at_time": (0.0, x, a, f, u, p, m, d),
             "next_time": (0.0, p, m, d),

@@ -45,7 +45,8 @@ class DCMotor(Component):
     -----
     Ports: ``armature`` (electrical), ``shaft`` (rotational, capacity ``rotor_inertia``).
     State ``current`` (A). Mode ``friction`` (0 stuck, 1 slipping forward, 2 backward).
-    Events ``speed_zero``, ``breakaway``. Derived ``hold_coefficient`` = breakaway/creep
+    Events ``speed_zero``, ``breakaway`` (none when ``coulomb_friction`` and
+    ``breakaway_torque`` are both 0). Derived ``hold_coefficient`` = breakaway/creep
     (N*m*s/rad). Outputs ``torque`` (k i, N*m), ``back_emf`` (V), ``copper_loss`` (W),
     ``friction_loss`` (W, the power the friction and viscous torques take from the
     shaft), ``magnetic_energy`` (J, L i^2 / 2, stored).
@@ -78,6 +79,11 @@ class DCMotor(Component):
     def __init__(self, name, *, initial=None, **values):
         super().__init__(name, initial=initial,
                          **_fr.fill_breakaway(values, "breakaway_torque", "coulomb_friction"))
+        if self.values["coulomb_friction"] == 0.0 and self.values["breakaway_torque"] == 0.0:
+            # no Coulomb friction: the friction torque is zero in every mode, so the stick/slip
+            # events could never matter; without them the solver evaluates no event functions
+            # (like a lossless gear, which needs no power-flow mode). Part of the structure.
+            self.events = ()
 
     def check(self, values):
         _fr.require_positive(self, values, "resistance", "inductance", "torque_constant", "creep_speed")

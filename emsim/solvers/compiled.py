@@ -239,8 +239,10 @@ class RadauRun:
         self.iopt = np.array([solver.max_events_at_instant, solver.max_steps, call_start,
                               int(solver.event_stage_checks)], dtype=np.int64)
         n_rec = int(problem.n_record)
-        self.buf = np.zeros((solver.batch_rows, n_rec))
-        self.buf_t = np.zeros(solver.batch_rows)
+        # uninitialised: the kernel writes every row it hands out (zeroing a few MB per run was a
+        # measurable part of a short run's cost)
+        self.buf = np.empty((solver.batch_rows, n_rec))
+        self.buf_t = np.empty(solver.batch_rows)
         n_cs = max(16, len(problem.component_names) + 1)
         n_log = max(solver.event_log_size, n_ev + n_cs + 1)
         self.log_t = np.zeros(n_log)
