@@ -37,9 +37,8 @@ compiles and caches this kernel once for every system; a new system compiles
 only its own small functions. Helpers receive the callbacks they need.
 
 Quadrature rows ``y[n_main:]`` are integrated by the same collocation formula
-(``Z_q = h A F_q`` at the stage points of the last Newton iteration, which
-differ from the converged ones by less than the Newton tolerance), appear in
-dense output, and
+(``Z_q = h A F_q`` at the converged stage points, one ``stages`` callback per
+accepted step), appear in dense output, and
 are excluded from the error norm (they never feed back, so they cannot make a
 step fail; their accuracy follows that of the main rows).
 
@@ -236,10 +235,8 @@ def radau_newton(stages_fn, t, h, y, p, m, d, w, mass, n, sc, z, wt, f, fq, want
 
     ``z[:, :n]`` holds the starting stage increments and, on success, the
     converged ones. Each iteration evaluates the three stages in one call
-    (``stages_fn``); with ``want_quad`` it also fills ``fq`` with the
-    quadrature integrands at the same points, so after the last iteration
-    ``fq`` holds them at the final iterate but one (the last correction is
-    below the Newton tolerance, far below the error tolerance). Returns (code,
+    (``stages_fn``; the caller passes ``want_quad = 0``: the quadrature
+    integrands are evaluated once at the converged stages). Returns (code,
     iterations, rate, eta): code 0 converged, 1 diverged or too slow, 2
     non-finite right-hand side (stage state copied to ``y_fail``, stage time to
     ``tf[F_TFAIL]``).
@@ -701,7 +698,6 @@ def radau_loop(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn
     max_steps = iopt[1]
     stage_checks = iopt[3] != 0
     fnewt = max(10.0 * radau_EPS / rtol, min(0.03, radau_math.sqrt(rtol)))
-    want_quad = 1 if n_quad > 0 else 0
     maxit = 30 if fixed else radau_MAXIT
 
     n_alg = 0
@@ -861,7 +857,7 @@ def radau_loop(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn
                 ys[i] = y[i]
             eta0 = max(tf[radau_F_ETA], radau_EPS) ** 0.8
             code, nit, rate, eta = radau_newton(stages_fn, t, h, y, p, m, d, w, mass, n, sc, z, wt, f, fq,
-                                                want_quad, ts3, ys, br, bc,
+                                                0, ts3, ys, br, bc,
                                                 lu_r, lu_c, piv, eta0, fnewt, maxit, y_fail, tf, stats)
             if code != 0:
                 n_fail += 1
@@ -934,7 +930,14 @@ def radau_loop(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn
         h_s = h
         t_new = t_land if lands else t + h
         if n_quad > 0:
-            # fq: the integrands of the accepted step's last Newton iteration (see radau_newton)
+            # the integrands at the converged stages, in one callback (f is free once Newton is done);
+            # the last Newton iterate is not good enough: with a small contraction memory Newton stops
+            # after one iteration, whose stage values are the extrapolated starting guess
+            for s in range(3):
+                ts3[s] = t + radau_C[s] * h
+            stages_fn(ts3, y, z, ys, p, m, d, w, f, fq, 1)
+            stats[radau_S_RHS] += 3
+            stats[radau_S_QUAD] += 3
             for s in range(3):
                 if not radau_dense.all_finite(fq[s], n_quad):
                     for j in range(n):
