@@ -26,7 +26,9 @@ array the generated code uses for port and signal buffers)::
 
 ``y`` holds ``n_main`` main rows followed by ``n_quad`` quadrature rows; the
 quadrature rows never feed back into the main rows. The module also exports
-each function as a C callback ``cb_<name>`` (:mod:`emsim.solvers.abi`). The
+the functions the compiled integrator calls as C callbacks ``cb_<name>``
+(:data:`emsim.solvers.abi.ORDER`; ``system_quad`` serves the reference solver,
+the integrator gets the integrands from ``system_stages``). The
 generated code uses numpy's floating-point error model: a division by zero
 gives inf/NaN, which the solvers report as a non-finite value naming the
 component, rather than raising inside compiled code.

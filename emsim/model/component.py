@@ -10,7 +10,9 @@ Contract for a component class (numbered, like the rules of a solver):
 1. Declare ``params``, ``states``, ``ports`` and optionally ``tables``,
    ``inputs``, ``signals``, ``outputs``, ``discrete``, ``modes``, ``events``,
    ``couplings``, ``energy``, ``derived``, ``sample_period`` (see
-   :mod:`emsim.model.declarations`). Units are coherent SI.
+   :mod:`emsim.model.declarations`). Units are coherent SI. An instance may
+   narrow its ``events`` to ``()`` in ``__init__`` when its values make them
+   meaningless (a motor without Coulomb friction); that is part of the structure.
 2. Provide ``equations(t, x, a, u, p, m, d, dx, f, s)`` as a ``staticmethod``:
    read time ``t``, own states ``x``, the across variable of each port ``a``
    (voltage V, speed rad/s, temperature K, in port order), signal inputs ``u``,

@@ -18,11 +18,10 @@ _I = types.Array(types.int64, 1, "C")
 _A2 = types.Array(types.float64, 2, "C")
 
 #: Order in which the callbacks are passed to ``radau_integrate``.
-ORDER = ("rhs", "quad", "events", "on_event", "next_time", "at_time", "start", "record", "jacobian", "stages")
+ORDER = ("rhs", "events", "on_event", "next_time", "at_time", "start", "record", "jacobian", "stages")
 
 SIGNATURES = {
     "rhs": types.void(_f8, _A, _A, _I, _A, _A, _A),
-    "quad": types.void(_f8, _A, _A, _I, _A, _A, _A),
     "events": types.void(_f8, _A, _A, _I, _A, _A, _A),
     "on_event": types.int64(_i8, _f8, _A, _A, _I, _A, _A),
     "next_time": types.float64(_f8, _A, _I, _A),
@@ -40,7 +39,6 @@ SIGNATURES = {
 
 ARGS = {
     "rhs": "t, y, p, m, d, w, dy",
-    "quad": "t, y, p, m, d, w, dq",
     "events": "t, y, p, m, d, w, g",
     "on_event": "k, t, y, p, m, d, w",
     "next_time": "t, p, m, d",

@@ -11,7 +11,7 @@ rows and the event log to the sink in batches and turns failure codes into
 where noted)::
 
     status = radau_integrate(
-        rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn,
+        rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn,
         jacobian_fn, stages_fn,
                       # the problem's callbacks, abi.callbacks(problem.module), in abi.ORDER
         t_end,        # float: integrate up to and including this time

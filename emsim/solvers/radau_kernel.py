@@ -27,10 +27,10 @@ only the error-estimate weights are the published values.
 
 How this file is used
 ---------------------
-``radau_integrate`` takes the problem's system functions as its first ten
+``radau_integrate`` takes the problem's system functions as its first nine
 arguments: C callbacks with the fixed signatures of :mod:`emsim.solvers.abi`
-(``rhs``, ``quad``, ``events``, ``on_event``, ``next_time``, ``at_time``,
-``start``, ``record``, ``jacobian``, ``stages``; their contract is in
+(``rhs``, ``events``, ``on_event``, ``next_time``, ``at_time``, ``start``,
+``record``, ``jacobian``, ``stages``; their contract is in
 ``emsim/assembly/problem.py`` and ``abi.py``).
 Because those argument types are signatures, not particular functions, numba
 compiles and caches this kernel once for every system; a new system compiles
@@ -229,14 +229,15 @@ def radau_factor(h, jac, mass, n, lu_r, lu_c, piv):
 
 
 @radau_njit(cache=True, inline="always")
-def radau_newton(stages_fn, t, h, y, p, m, d, w, mass, n, sc, z, wt, f, fq, want_quad, ts3, ys, br, bc,
+def radau_newton(stages_fn, t, h, y, p, m, d, w, mass, n, sc, z, wt, f, fq, ts3, ys, br, bc,
                  lu_r, lu_c, piv, eta0, fnewt, maxit, y_fail, tf, stats):
     """Simplified Newton iteration on the transformed collocation system.
 
     ``z[:, :n]`` holds the starting stage increments and, on success, the
     converged ones. Each iteration evaluates the three stages in one call
-    (``stages_fn``; the caller passes ``want_quad = 0``: the quadrature
-    integrands are evaluated once at the converged stages). Returns (code,
+    (``stages_fn``, without the quadrature integrands: those are evaluated
+    once, at the converged stages; ``fq`` is only passed through). Leaves the
+    stage times in ``ts3``. Returns (code,
     iterations, rate, eta): code 0 converged, 1 diverged or too slow, 2
     non-finite right-hand side (stage state copied to ``y_fail``, stage time to
     ``tf[F_TFAIL]``).
@@ -253,10 +254,8 @@ def radau_newton(stages_fn, t, h, y, p, m, d, w, mass, n, sc, z, wt, f, fq, want
     dw_old = 1.0
     rate = 0.0
     for it in range(maxit):
-        stages_fn(ts3, y, z, ys, p, m, d, w, f, fq, want_quad)
+        stages_fn(ts3, y, z, ys, p, m, d, w, f, fq, 0)
         stats[radau_S_RHS] += 3
-        if want_quad != 0:
-            stats[radau_S_QUAD] += 3
         stats[radau_S_NEWTON] += 1
         for s in range(3):
             if not radau_dense.all_finite(f[s], n):
@@ -650,7 +649,7 @@ def radau_borrow(typingctx, arr):
 
 
 @radau_njit(cache=True, error_model="numpy")
-def radau_integrate(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, jacobian_fn, stages_fn, t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
+def radau_integrate(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, jacobian_fn, stages_fn, t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
                     opt, iopt, buf, buf_t, log_t, log_comp, log_kind, log_index, comp_scratch,
                     tf, ti, jac, lu_r, lu_c, lu_a, piv, f0, g_old, qd, y_fail, stats, scratch):
     """Integrate from ``tf[F_T]`` towards ``t_end``; return a status code.
@@ -664,7 +663,7 @@ def radau_integrate(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_ti
     """
     zs, wts, fs, fqs, vec, small, bcs, evs, ev_hits, m_prevs, algs, ts3s = scratch
     b = radau_borrow
-    return radau_loop(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, jacobian_fn,
+    return radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, jacobian_fn,
                       stages_fn, t_end, b(y), b(p), b(m), b(d), b(w), b(mass), b(atol), b(nominal), b(event_dir), n_main,
                       b(opt), b(iopt), b(buf), b(buf_t), b(log_t), b(log_comp), b(log_kind), b(log_index),
                       b(comp_scratch), b(tf), b(ti), b(jac), b(lu_r), b(lu_c), b(lu_a), b(piv), b(f0), b(g_old),
@@ -675,7 +674,7 @@ def radau_integrate(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_ti
 
 
 @radau_njit(cache=True, error_model="numpy")
-def radau_loop(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, jacobian_fn, stages_fn, t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
+def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, jacobian_fn, stages_fn, t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
                opt, iopt, buf, buf_t, log_t, log_comp, log_kind, log_index, comp_scratch,
                tf, ti, jac, lu_r, lu_c, lu_a, piv, f0, g_old, qd, y_fail, stats,
                z, wt, f, fq, ys, ynew, yold, yint, ysave, sc, br, bc, ftmp, err, zm, dz,
@@ -857,7 +856,7 @@ def radau_loop(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn
                 ys[i] = y[i]
             eta0 = max(tf[radau_F_ETA], radau_EPS) ** 0.8
             code, nit, rate, eta = radau_newton(stages_fn, t, h, y, p, m, d, w, mass, n, sc, z, wt, f, fq,
-                                                0, ts3, ys, br, bc,
+                                                ts3, ys, br, bc,
                                                 lu_r, lu_c, piv, eta0, fnewt, maxit, y_fail, tf, stats)
             if code != 0:
                 n_fail += 1
@@ -930,11 +929,9 @@ def radau_loop(rhs_fn, quad_fn, events_fn, on_event_fn, next_time_fn, at_time_fn
         h_s = h
         t_new = t_land if lands else t + h
         if n_quad > 0:
-            # the integrands at the converged stages, in one callback (f is free once Newton is done);
-            # the last Newton iterate is not good enough: with a small contraction memory Newton stops
-            # after one iteration, whose stage values are the extrapolated starting guess
-            for s in range(3):
-                ts3[s] = t + radau_C[s] * h
+            # the integrands at the converged stages, in one callback (f is free once Newton is done;
+            # ts3 holds this step's stage times). Newton's last iterate is not good enough: with a small
+            # contraction memory Newton stops after one iteration, whose stages are the starting guess
             stages_fn(ts3, y, z, ys, p, m, d, w, f, fq, 1)
             stats[radau_S_RHS] += 3
             stats[radau_S_QUAD] += 3
