@@ -11,6 +11,8 @@ hobby-size motor and bench loads), not taken from any data sheet.
 """
 from __future__ import annotations
 
+import sys
+from pathlib import Path
 
 import numpy as np
 
@@ -203,6 +205,22 @@ CATALOGUE = {
     "friction_coast": (lambda: build_friction(w0=10.0), 3.0, 0.01),
     "friction_breakaway": (lambda: build_friction(applied=0.8, breakaway=0.6), 1.0, 0.01),
 }
+
+
+def build_benchmark_drive(variant: str = "averaged-drive") -> emsim.System:
+    """The benchmark drive (battery, averaged bridge, motor, gear, shaft, load, sampled PI) of benchmarks/."""
+    bench = str(Path(__file__).resolve().parents[1] / "benchmarks")
+    if bench not in sys.path:
+        sys.path.insert(0, bench)
+    import emsim_side
+    return emsim_side.build(variant)
+
+
+def systems_with_benchmark_drive() -> dict:
+    """Builders of every catalogue system plus the averaged benchmark drive, by name."""
+    out = {name: entry[0] for name, entry in CATALOGUE.items()}
+    out["bench_averaged"] = build_benchmark_drive
+    return out
 
 
 def crossings(t, x):

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import pytest
 
-from helpers import CATALOGUE, SOLVERS, SOLVER_IDS, first_law_ok, run
+from helpers import CATALOGUE, SOLVERS, SOLVER_IDS, build_benchmark_drive, first_law_ok, run
 
 
 @pytest.mark.parametrize("solver", SOLVERS, ids=SOLVER_IDS)
@@ -50,14 +50,9 @@ def test_energy_audit_follows_the_state_accuracy_in_a_sampled_drive():
     # converged stages, so their error follows the states' (the audit measured ~1e-9 here);
     # integrands taken anywhere else (e.g. Newton's starting guess) show up as ~1e-5. The bound
     # 10 * rtol is a regression guard between the two, tighter than first_law_ok's global bound.
-    import sys
-    from pathlib import Path
-
     import emsim
     from emsim.solvers.compiled import Radau5
-    sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "benchmarks"))
-    import emsim_side
-    r = emsim.simulate(emsim_side.build("averaged-drive"), 2.0, out_dt=1e-3, solver=Radau5())
+    r = emsim.simulate(build_benchmark_drive(), 2.0, out_dt=1e-3, solver=Radau5())
     e = r.energy
     assert e["supplied"] > 1.0  # the drive really moves energy (J)
     assert e["relative_residual"] < 10 * 1e-6, e

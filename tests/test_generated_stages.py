@@ -7,26 +7,13 @@ system and the benchmark drive; results must be bit-identical (the same compiled
 """
 from __future__ import annotations
 
-import sys
-from pathlib import Path
-
 import numpy as np
 import pytest
 
 import emsim
-from helpers import CATALOGUE
+from helpers import systems_with_benchmark_drive
 
-sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "benchmarks"))
-
-
-def systems():
-    out = {name: entry[0] for name, entry in CATALOGUE.items()}
-    import emsim_side
-    out["bench_averaged"] = lambda: emsim_side.build("averaged-drive")
-    return out
-
-
-SYSTEMS = systems()
+SYSTEMS = systems_with_benchmark_drive()
 
 
 @pytest.mark.parametrize("name", sorted(SYSTEMS))

@@ -6,28 +6,15 @@ modes, compliant shafts, friction) and of the benchmark drive (averaged bridge, 
 """
 from __future__ import annotations
 
-import sys
-from pathlib import Path
-
 import numpy as np
 import pytest
 from scipy.optimize import approx_fprime
 
 import emsim
 from emsim.assembly.jacgen import analytic_possible
-from helpers import CATALOGUE
+from helpers import systems_with_benchmark_drive
 
-sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "benchmarks"))
-
-
-def systems():
-    out = {name: entry[0] for name, entry in CATALOGUE.items()}
-    import emsim_side
-    out["bench_averaged"] = lambda: emsim_side.build("averaged-drive")
-    return out
-
-
-SYSTEMS = systems()
+SYSTEMS = systems_with_benchmark_drive()
 
 
 @pytest.mark.parametrize("name", sorted(SYSTEMS))
