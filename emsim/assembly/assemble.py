@@ -9,9 +9,8 @@ from ..errors import AssemblyError, EmsimError, PluginError
 from ..model.declarations import DOMAINS
 from ..model.system import System
 from ..units import to_si
-from ..solvers.abi import export_source
 from .codegen import generate
-from .compile import load_generated
+from .compile import load_with_callbacks
 from .diagnose import nonfinite_culprit
 from .layout import lay_out
 from .problem import Problem
@@ -33,7 +32,7 @@ def assemble(system: System, *, t0: float = 0.0) -> Problem:
     _apply_initial(st, lay)
     source, names, units, fingerprint = generate(st, lay)
     try:
-        module = load_generated("system", source + export_source(), extra_key=fingerprint)
+        module = load_with_callbacks("system", source, extra_key=fingerprint)
     except EmsimError:
         raise
     except Exception as exc:  # the exported callbacks compile at import: numba typing/lowering errors

@@ -64,3 +64,30 @@ def load_generated(prefix: str, source: str, extra_key: str = "") -> ModuleType:
         raise
     _loaded[name] = module
     return module
+
+
+def load_with_callbacks(prefix: str, source: str, extra_key: str = "") -> ModuleType:
+    """``source`` plus its exported callbacks, loaded as a module: lean callbacks when its code allows.
+
+    The lean export (:func:`emsim.solvers.abi.export_source`) fails to compile
+    when a kernel allocates an array; the module is then loaded again, under
+    another name (so with fresh dispatchers: numba remembers a failed typing in
+    the dispatcher), with the runtime. A marker file remembers that choice, so
+    later runs do not repeat the failed attempt. A kernel that does not compile
+    at all fails both ways: the second error is the one raised.
+    """
+    from ..errors import EmsimError
+    from ..solvers.abi import export_source
+
+    marker = cache_dir() / f"emsim_generated_{prefix}_{structure_key(source, extra_key)}.needs-runtime"
+    if not marker.exists():
+        try:
+            return load_generated(prefix, source + export_source(lean=True), extra_key)
+        except EmsimError:
+            raise
+        except Exception:  # noqa: BLE001 - numba typing/lowering errors; the retry reports real faults
+            pass
+    module = load_generated(prefix, source + export_source(lean=False), extra_key)
+    marker.touch()
+    return module
+

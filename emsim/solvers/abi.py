@@ -66,15 +66,29 @@ def system_stages(ts, y, z, ys, p, m, d, w, f, fq, want_quad):
 """
 
 
-def export_source() -> str:
-    """Lines a generated module appends to export its ``system_*`` functions as callbacks."""
+# called once per system (Jacobian) or per run (start), and the generated Jacobian allocates
+_WITH_RUNTIME = ("jacobian", "start")
+
+
+def export_source(lean: bool = True) -> str:
+    """Lines a generated module appends to export its ``system_*`` functions as callbacks.
+
+    ``lean``: compile the callbacks that run every step without numba's
+    reference counting (``_nrt=False``; it is inherited by every jitted function
+    they call, component kernels included). They only touch arrays their
+    caller owns, so counting references is dead work: a runtime call per array
+    argument and per slice. A kernel that allocates an array needs the runtime
+    and does not compile lean: :func:`emsim.assembly.compile.load_with_callbacks`
+    then loads the module again with ``lean=False``.
+    """
     lines = ["", "from emsim.solvers.abi import SIGNATURES as _abi_signatures",
              "import numba as _abi_numba", _STAGES_SOURCE]
     for name, args in ARGS.items():
+        flags = ", _nrt=False" if lean and name not in _WITH_RUNTIME else ""
         # a thin Python-level wrapper: numba's cache needs a plain function, not a dispatcher
         lines += [f"def _abi_{name}({args}):",
                   f"    return system_{name}({args})",
-                  f"cb_{name} = _abi_numba.cfunc(_abi_signatures[{name!r}], cache=True)(_abi_{name})", ""]
+                  f"cb_{name} = _abi_numba.cfunc(_abi_signatures[{name!r}], cache=True{flags})(_abi_{name})", ""]
     return "\n".join(lines) + "\n"
 
 

@@ -673,7 +673,8 @@ def radau_integrate(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, st
                       b(evs[0]), b(evs[3:5]), b(evs[1]), b(ev_hits), b(evs[2]), b(m_prevs), b(algs), b(ts3s))
 
 
-@radau_njit(cache=True, error_model="numpy")
+# without the runtime: no reference counting at all in the loop (every array is the driver's; nothing allocates)
+@radau_njit(cache=True, error_model="numpy", _nrt=False)
 def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, jacobian_fn, stages_fn, t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
                opt, iopt, buf, buf_t, log_t, log_comp, log_kind, log_index, comp_scratch,
                tf, ti, jac, lu_r, lu_c, lu_a, piv, f0, g_old, qd, y_fail, stats,
@@ -1010,8 +1011,13 @@ def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_f
         if time_due:
             t = tf[radau_F_TN]
         if n_hit == 0 and not time_due:
-            rhs_fn(t, y, p, m, d, w, f0)
-            stats[radau_S_RHS] += 1
+            if n_quad > 0 and not lands and ts3[2] == t:
+                # the quadrature call evaluated the last stage, (t_s + h, y_s + z_3) = (t, y): f0 is known
+                for i in range(n):
+                    f0[i] = f[2, i]
+            else:
+                rhs_fn(t, y, p, m, d, w, f0)
+                stats[radau_S_RHS] += 1
             bad = radau_dense.first_nonfinite(f0, n)
             if bad >= 0:
                 for i in range(n_tot):

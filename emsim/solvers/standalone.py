@@ -4,7 +4,7 @@
 as plain Python functions in the numba subset, generates a small module that
 defines the ``system_*`` functions of the :class:`~emsim.assembly.problem.Problem`
 contract around them, exports them as callbacks (:func:`emsim.solvers.abi.export_source`) and
-loads it with :func:`emsim.assembly.compile.load_generated`. The integrator
+loads it with :func:`emsim.assembly.compile.load_with_callbacks`. The integrator
 compiled this way is byte for byte the one assembled systems use.
 
 How the user functions are found
@@ -38,9 +38,8 @@ from pathlib import Path
 
 import numpy as np
 
-from ..assembly.compile import load_generated
+from ..assembly.compile import load_with_callbacks
 from ..assembly.problem import Problem
-from .abi import export_source
 
 
 def _locate(fn, role):
@@ -165,9 +164,9 @@ def compile_standalone(rhs, y0, *, n_main=None, mass=None, events=None, directio
     else:
         lines += block("system_record(t, y, p, m, d, w, row)",
                        body("record", ["t", "y", "row"], ["t", "y", *pmd, "row"]))
-    source = "\n".join(lines) + "\n" + export_source()
+    source = "\n".join(lines) + "\n"
     label = name or getattr(getattr(rhs, "py_func", rhs), "__name__", "system")
-    module = load_generated(f"standalone_{label}", source, extra_key="\0".join(keys))
+    module = load_with_callbacks(f"standalone_{label}", source, extra_key="\0".join(keys))
 
     names = list(state_names) if state_names is not None else [f"y{i}" for i in range(len(y0))]
     owner = label
