@@ -28,10 +28,14 @@ class MemoryRecorder:
         """``(t, data)``: output times and the rows, concatenated."""
         if not self._t:
             return np.zeros(0), np.zeros((0, len(self.names)))
+        if len(self._t) == 1:  # one batch: already a private copy
+            return self._t[0], self._rows[0]
         return np.concatenate(self._t), np.concatenate(self._rows)
 
     def event_arrays(self):
         """``(t, component, kind, index)`` of the event log, concatenated."""
         if not self._ev:
             return np.zeros(0), np.zeros(0, np.int64), np.zeros(0, np.int64), np.zeros(0, np.int64)
+        if len(self._ev) == 1:
+            return self._ev[0]
         return tuple(np.concatenate([e[i] for e in self._ev]) for i in range(4))

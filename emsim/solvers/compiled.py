@@ -109,7 +109,8 @@ class Radau5(Solver):
     fixed_step : if given, every step has this size (clipped only to land on
         events and ``t_end``) and no error test is made (for convergence studies).
     batch_rows : rows per batch handed to the sink.
-    event_log_size : event-log entries per batch.
+    event_log_size : event-log entries per batch (a full log returns to Python once to empty
+        it: 16384 holds the time events of a 1 kHz controller for 16 s).
     max_events_at_instant : more events than this inside a window of
         ``1000 * event_tol * max(1, |t|)`` is reported as chattering.
     event_tol : relative tolerance of located state-event times.
@@ -125,7 +126,7 @@ class Radau5(Solver):
     name = "radau5"
 
     def __init__(self, *, rtol=1e-6, atol_scale=None, h0=None, max_step=math.inf, fixed_step=None,
-                 batch_rows=4096, event_log_size=4096, max_events_at_instant=50, event_tol=1e-12,
+                 batch_rows=4096, event_log_size=16384, max_events_at_instant=50, event_tol=1e-12,
                  max_steps=0, event_stage_checks=False):
         if not (0.0 < rtol < 1.0):
             raise ValueError(f"Radau5: rtol must lie in (0, 1), got {rtol!r}")
@@ -171,6 +172,26 @@ class Radau5(Solver):
         run = self.start(problem, out_dt=out_dt)
         run.advance(t_end, sink)
         return run.stats()
+
+
+_kernel_entry = None
+
+
+def _integrate(*args):
+    """``radau_integrate(*args)``, from the second call on without numba's dispatch.
+
+    Every call passes the same argument types (arrays this module builds, callbacks of the
+    fixed ABI signatures, which numba asserts when it unboxes them), so the one compiled
+    overload is called directly: dispatch would type the nine callbacks again on every
+    call, about a quarter of a millisecond each time.
+    """
+    global _kernel_entry
+    if _kernel_entry is not None:
+        return _kernel_entry(*args)
+    status = radau_integrate(*args)
+    if len(radau_integrate.overloads) == 1:
+        _kernel_entry = next(iter(radau_integrate.overloads.values())).entry_point
+    return status
 
 
 def _check(cond, problem, msg):
@@ -277,11 +298,10 @@ class RadauRun:
         t_end = float(t_end)
         if not math.isfinite(t_end) or t_end < self.t:
             raise SolverError(f"Radau5: t_end = {t_end!r} lies before the current time {self.t!r}")
-        integrate = radau_integrate
         while True:
             self.ti[1] = 0
             self.ti[2] = 0
-            status = integrate(
+            status = _integrate(
                 *self.callbacks, t_end, self.y, self.p, self.m, self.d, self.w, self.mass, self.atol, self.nominal,
                 self.event_dir, self.n_main, self.opt, self.iopt, self.buf, self.buf_t,
                 self.log_t, self.log_comp, self.log_kind, self.log_index, self.comp_scratch,
