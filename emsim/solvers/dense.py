@@ -63,23 +63,30 @@ def lu_factor(a, piv, n):
 
 @njit(cache=True, inline="always")
 def lu_solve(lu, piv, b, n):
-    """Solve ``A x = b`` in place in ``b[:n]`` with the factors from :func:`lu_factor`."""
+    """Solve ``A x = b`` in place in ``b[:n]`` with the factors from :func:`lu_factor`.
+
+    Column-oriented substitution: once ``x[j]`` is known it is subtracted from
+    every remaining entry. The row-oriented form accumulates each entry in one
+    serial chain of multiply-adds; here the updates of different entries are
+    independent, so the processor overlaps them (the solves were a quarter of
+    a small drive's run time). Forward substitution does the same operations in
+    the same order as the row form.
+    """
     for k in range(n):
         p = piv[k]
         if p != k:
             tmp = b[k]
             b[k] = b[p]
             b[p] = tmp
-    for i in range(1, n):
-        s = b[i]
-        for j in range(i):
-            s -= lu[i, j] * b[j]
-        b[i] = s
-    for i in range(n - 1, -1, -1):
-        s = b[i]
-        for j in range(i + 1, n):
-            s -= lu[i, j] * b[j]
-        b[i] = s * lu[i, i]
+    for j in range(n - 1):
+        bj = b[j]
+        for i in range(j + 1, n):
+            b[i] -= lu[i, j] * bj
+    for j in range(n - 1, -1, -1):
+        bj = b[j] * lu[j, j]
+        b[j] = bj
+        for i in range(j):
+            b[i] -= lu[i, j] * bj
 
 
 @njit(cache=True, inline="always")

@@ -70,6 +70,11 @@ from numba.extending import intrinsic as radau_intrinsic
 
 from emsim.solvers import dense as radau_dense
 
+# numba's on-disk cache of this kernel is keyed on THIS file's text only, yet the kernel has dense.py's
+# helpers inlined: the digest of dense.py written here makes every change there change this file too
+# (tests/test_dense.py fails until it is updated), so no stale kernel survives an edit or an upgrade
+radau_DENSE_SHA256 = "6fd74ab615ffbc287d340f8e9848513eb846f037f67e620cd72afec05b1a572c"
+
 
 def radau_coefficients():
     """Radau IIA (s = 3) coefficients derived from the collocation conditions.
