@@ -18,11 +18,11 @@ class MemoryRecorder:
         self._t, self._rows, self._ev = [], [], []
 
     def rows(self, t, data):
-        self._t.append(np.array(t, dtype=float))      # copies: solvers reuse their buffers
-        self._rows.append(np.array(data, dtype=float))
+        self._t.append(np.asarray(t, dtype=float))    # no copy: solvers hand their batches over
+        self._rows.append(np.asarray(data, dtype=float))
 
     def events(self, t, component, kind, index):
-        self._ev.append(tuple(np.array(a) for a in (t, component, kind, index)))
+        self._ev.append(tuple(np.asarray(a) for a in (t, component, kind, index)))
 
     def arrays(self):
         """``(t, data)``: output times and the rows, concatenated."""

@@ -11,10 +11,12 @@ event log. The contract, which every subclass of :class:`Solver` keeps:
    up to and including ``t_end``; the first row is at ``t0``. Each row holds the
    ``problem.n_record`` values that the generated ``system_record`` fills.
 3. ``sink.rows(t, data)`` receives rows in time order in batches: ``t`` of shape
-   ``(k,)``, ``data`` of shape ``(k, problem.n_record)``. The arrays may be
-   reused by the solver after the call returns: a sink that keeps them copies.
+   ``(k,)``, ``data`` of shape ``(k, problem.n_record)``. The arrays are handed
+   over: the solver never writes to them after the call, so a sink may keep
+   them without copying (copying a long run's rows cost more than the
+   solver's own bookkeeping).
 4. ``sink.events(t, component, kind, index)`` receives the event log in time
-   order in batches: ``component`` is the index into ``problem.component_names``,
+   order in batches (handed over like the rows): ``component`` is the index into ``problem.component_names``,
    ``kind`` is 1 for a time event and 2 for a state event, ``index`` is the state
    event index (into ``problem.event_owner``) or -1 for a time event. The
    batches of rows and of events each stay in time order; rows of a batch are

@@ -309,9 +309,13 @@ class RadauRun:
                 self.g_old, self.qd, self.y_fail, self.stats_array, self.scratch)
             nr, nl = int(self.ti[1]), int(self.ti[2])
             if nr:
+                # handed over (solver contract 3): the next batch gets fresh, still untouched, memory
                 sink.rows(self.buf_t[:nr], self.buf[:nr])
+                self.buf, self.buf_t = np.empty_like(self.buf), np.empty_like(self.buf_t)
             if nl:
                 sink.events(self.log_t[:nl], self.log_comp[:nl], self.log_kind[:nl], self.log_index[:nl])
+                self.log_t, self.log_comp = np.empty_like(self.log_t), np.empty_like(self.log_comp)
+                self.log_kind, self.log_index = np.empty_like(self.log_kind), np.empty_like(self.log_index)
             if status == 0:
                 return self.stats()
             if status in (1, 2):
