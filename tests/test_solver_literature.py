@@ -14,6 +14,7 @@ from scipy.integrate import solve_ivp
 from sksundae.cvode import CVODE
 
 import problems as P
+from emsim.solvers.compiled import Radau5
 from emsim.solvers.standalone import solve_standalone
 
 
@@ -143,3 +144,17 @@ def test_adaptive_error_and_dense_output_on_smooth_problem():
         assert e < 5.0, (rtol, e)
     # tighter tolerance must really be more accurate in absolute terms
     assert errs[1] * 1e-8 < errs[0] * 1e-5
+
+
+def test_newton_tolerance_option_tightens_the_iteration_and_keeps_the_accuracy():
+    pr = P.make(P.SMOOTH, [1.0, 1.0, 0.0], n_quad=1)
+    rtol = 1e-6
+    runs = {tol: solve_standalone(pr, 10.0, out_dt=0.01, rtol=rtol, atol_scale=rtol, newton_tol=tol)
+            for tol in (None, 1e-6)}
+    for tol, (t, y, _, stats) in runs.items():
+        exact = _smooth_exact(t).T   # closed-form solution
+        assert np.max(np.abs(y - exact) / (rtol + rtol * np.abs(exact))) < 5.0, tol
+    # a 1000x tighter stopping tolerance than the default sqrt(rtol) = 1e-3 must cost Newton iterations
+    assert runs[1e-6][3]["newton_iterations"] > runs[None][3]["newton_iterations"]
+    with pytest.raises(ValueError, match="newton_tol"):
+        Radau5(newton_tol=0.0)

@@ -26,7 +26,8 @@ where noted)::
         event_dir,    # int64[n_events]            +1 rising, -1 falling, 0 both
         n_main,       # int: rows in the Newton system
         opt,          # float64[8]: rtol, event_tol, max_step, out_t0, out_dt,
-                      #             fixed step (0 = adaptive), h0 (0 = automatic), unused
+                      #             fixed step (0 = adaptive), h0 (0 = automatic),
+                      #             Newton stopping tolerance (0 = automatic)
         iopt,         # int64[4]:  max_events_at_instant, max_steps (0 = no limit),
                       #            call system_start on the first call (1) or not (0),
                       #            check event functions at the stage points too (1) or not (0)
@@ -115,6 +116,9 @@ class Radau5(Solver):
         ``1000 * event_tol * max(1, |t|)`` is reported as chattering.
     event_tol : relative tolerance of located state-event times.
     max_steps : stop with an error after this many steps (0: no limit).
+    newton_tol : stopping tolerance of the Newton iteration, relative to the error
+        weights (Hairer & Wanner's ``fnewt``); None means
+        ``max(10 eps / rtol, min(0.03, sqrt(rtol)))``.
     event_stage_checks : also evaluate the event functions at the first two
         stage points of every step (default False: only at the step end, the
         step start being known). With the checks, a function that crosses zero
@@ -127,7 +131,7 @@ class Radau5(Solver):
 
     def __init__(self, *, rtol=1e-6, atol_scale=None, h0=None, max_step=math.inf, fixed_step=None,
                  batch_rows=4096, event_log_size=16384, max_events_at_instant=50, event_tol=1e-12,
-                 max_steps=0, event_stage_checks=False):
+                 max_steps=0, event_stage_checks=False, newton_tol=None):
         if not (0.0 < rtol < 1.0):
             raise ValueError(f"Radau5: rtol must lie in (0, 1), got {rtol!r}")
         if atol_scale is not None and not (atol_scale > 0.0 and math.isfinite(atol_scale)):
@@ -153,6 +157,9 @@ class Radau5(Solver):
         self.event_tol = float(event_tol)
         self.max_steps = int(max_steps)
         self.event_stage_checks = bool(event_stage_checks)
+        if newton_tol is not None and not (0.0 < newton_tol < 1.0):
+            raise ValueError(f"Radau5: newton_tol must lie in (0, 1), got {newton_tol!r}")
+        self.newton_tol = None if newton_tol is None else float(newton_tol)
 
     def settings(self) -> dict:
         return {
@@ -162,6 +169,7 @@ class Radau5(Solver):
             "batch_rows": self.batch_rows, "event_log_size": self.event_log_size,
             "max_events_at_instant": self.max_events_at_instant, "event_tol": self.event_tol,
             "max_steps": self.max_steps, "event_stage_checks": self.event_stage_checks,
+            "newton_tol": self.newton_tol,
         }
 
     def start(self, problem, *, out_dt: float, out_t0: float | None = None) -> "RadauRun":
@@ -255,7 +263,7 @@ class RadauRun:
         t0 = float(problem.t0)
         self.opt = np.array([solver.rtol, solver.event_tol, solver.max_step,
                              t0 if out_t0 is None else float(out_t0), float(out_dt),
-                             solver.fixed_step or 0.0, solver.h0 or 0.0, 0.0])
+                             solver.fixed_step or 0.0, solver.h0 or 0.0, solver.newton_tol or 0.0])
         call_start = 0 if getattr(problem, "start_applied", True) else 1
         self.iopt = np.array([solver.max_events_at_instant, solver.max_steps, call_start,
                               int(solver.event_stage_checks)], dtype=np.int64)

@@ -702,7 +702,7 @@ def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_f
     max_at_instant = iopt[0]
     max_steps = iopt[1]
     stage_checks = iopt[3] != 0
-    fnewt = max(10.0 * radau_EPS / rtol, min(0.03, radau_math.sqrt(rtol)))
+    fnewt = opt[7] if opt[7] > 0.0 else max(10.0 * radau_EPS / rtol, min(0.03, radau_math.sqrt(rtol)))
     maxit = 30 if fixed else radau_MAXIT
 
     n_alg = 0
