@@ -28,7 +28,7 @@ class MemoryRecorder:
         """``(t, data)``: output times and the rows, concatenated."""
         if not self._t:
             return np.zeros(0), np.zeros((0, len(self.names)))
-        if len(self._t) == 1:  # one batch: already a private copy
+        if len(self._t) == 1:  # one batch: the solver handed it over, nothing to join
             return self._t[0], self._rows[0]
         return np.concatenate(self._t), np.concatenate(self._rows)
 

@@ -66,7 +66,8 @@ def system_stages(ts, y, z, ys, p, m, d, w, f, fq, want_quad):
 """
 
 
-# called once per system (Jacobian) or per run (start), and the generated Jacobian allocates
+# rare calls (a Jacobian only when the solver asks for a new one; start once per run), and the
+# generated Jacobian allocates
 _WITH_RUNTIME = ("jacobian", "start")
 
 
