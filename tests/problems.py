@@ -161,3 +161,44 @@ def make(sel, y0, params=(), *, directions=(), n_quad=0, **kw):
         bank_rhs, y0, events=bank_events, directions=directions, on_event=bank_on_event,
         time_events=(bank_next_time, bank_at_time), n_quad=n_quad, quad=bank_quad,
         p=(float(sel), *params), name="solver_test_bank", **kw)
+
+
+def smooth_exact(t):
+    """Closed form of the SMOOTH problem: y1' = y1 cos t -> exp(sin t); y2' = -2 t y2^2 -> 1/(1 + t^2);
+    q' = y2 -> atan t."""
+    return np.array([np.exp(np.sin(t)), 1.0 / (1.0 + t * t), np.arctan(t)])
+
+
+def drive_segment_reference(n):
+    """Reference for the DRIVE problem over ``n`` samples: the 5 differential states at every sample.
+
+    scipy solve_ivp(Radau) on each sampling interval with the algebraic rows eliminated by hand
+    and the same PI controller (clamping, held duty cycle) applied between intervals.
+    """
+    from scipy.integrate import solve_ivp
+
+    L, R, k, Jm, ks, c, Jl, b, TL, tau, Vdc, Rs, Kp, Ki, wref, Ts = DRIVE_P
+
+    def f(t, x, duty):
+        i, wm, th, wl, wf = x
+        vt = duty * Vdc - Rs * i
+        tsh = ks * th + c * (wm - wl)
+        return [(vt - R * i - k * wm) / L, (k * i - tsh) / Jm, wm - wl, (tsh - b * wl - TL) / Jl, (wm - wf) / tau]
+
+    x = np.zeros(5)
+    duty, integ = 0.0, 0.0
+    ref = [x.copy()]
+    for j in range(n):
+        seg = solve_ivp(f, (j * Ts, (j + 1) * Ts), x, method="Radau", rtol=1e-11, atol=1e-12, args=(duty,))
+        x = seg.y[:, -1].copy()
+        ref.append(x.copy())
+        e = wref - x[4]
+        u = Kp * e + Ki * (integ + Ts * e)
+        if u > 1.0:
+            duty = 1.0
+        elif u < -1.0:
+            duty = -1.0
+        else:
+            duty = u
+            integ += Ts * e
+    return np.array(ref)

@@ -18,7 +18,8 @@ _I = types.Array(types.int64, 1, "C")
 _A2 = types.Array(types.float64, 2, "C")
 
 #: Order in which the callbacks are passed to ``radau_integrate``.
-ORDER = ("rhs", "events", "on_event", "next_time", "at_time", "start", "record", "jacobian", "stages")
+ORDER = ("rhs", "events", "on_event", "next_time", "at_time", "start", "record", "jacobian", "stages",
+         "quad_at_rhs")
 
 SIGNATURES = {
     "rhs": types.void(_f8, _A, _A, _I, _A, _A, _A),
@@ -34,6 +35,9 @@ SIGNATURES = {
     # f[s] = f(ts[s], y + z[s]) on the main rows and, if want_quad, the quadrature integrands
     # fq[s] at the same point (ys: scratch of y's length)
     "stages": types.void(_A, _A, _A2, _A, _A, _I, _A, _A, _A2, _A2, _i8),
+    # the quadrature integrands dq at (t, y) when w already holds system_rhs at that same point
+    # (the explicit method's stages: their right-hand side comes from a consistency solve)
+    "quad_at_rhs": types.void(_f8, _A, _A, _I, _A, _A, _A),
 }
 
 
@@ -47,6 +51,7 @@ ARGS = {
     "record": "t, y, p, m, d, w, row",
     "jacobian": "t, y, p, m, d, w, jac",
     "stages": "ts, y, z, ys, p, m, d, w, f, fq, want_quad",
+    "quad_at_rhs": "t, y, p, m, d, w, dq",
 }
 
 # ``system_stages`` is the same for every module: written here once, in terms of the module's own

@@ -1,4 +1,5 @@
-"""Python driver of the compiled Radau IIA integrator.
+"""Python driver of the compiled integrators: Radau IIA (:class:`Radau5`) and Dormand-Prince 5(4)
+(:class:`DormandPrince5`), two methods of one compiled step loop.
 
 The whole step loop runs in numba (:func:`emsim.solvers.radau_kernel.radau_integrate`),
 compiled and cached once for all systems: it receives the generated system
@@ -12,7 +13,7 @@ where noted)::
 
     status = radau_integrate(
         rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn,
-        jacobian_fn, stages_fn,
+        jacobian_fn, stages_fn, quad_fn,
                       # the problem's callbacks, abi.callbacks(problem.module), in abi.ORDER
         t_end,        # float: integrate up to and including this time
         y,            # float64[n_main + n_quad]   state, in/out
@@ -28,9 +29,10 @@ where noted)::
         opt,          # float64[8]: rtol, event_tol, max_step, out_t0, out_dt,
                       #             fixed step (0 = adaptive), h0 (0 = automatic),
                       #             Newton stopping tolerance (0 = automatic)
-        iopt,         # int64[4]:  max_events_at_instant, max_steps (0 = no limit),
+        iopt,         # int64[5]:  max_events_at_instant, max_steps (0 = no limit),
                       #            call system_start on the first call (1) or not (0),
-                      #            check event functions at the stage points too (1) or not (0)
+                      #            check event functions at the stage points too (1) or not (0),
+                      #            method: 0 Radau IIA, 1 Dormand-Prince 5(4)
         buf,          # float64[rows, n_record]    output rows, filled from ti[1]
         buf_t,        # float64[rows]              their times
         log_t, log_comp, log_kind, log_index,   # event log: time, component, kind (1 time,
@@ -46,7 +48,9 @@ where noted)::
         piv,          # int64[3, n_main]           pivots of the three factorisations
         f0,           # float64[n_main]            f(t, y) at the current state (persistent)
         g_old,        # float64[n_events]          event functions at the current state
-        qd,           # float64[3, n_main+n_quad]  collocation polynomial of the last step
+        qd,           # float64[4, n_main+n_quad]  dense output of the last step
+        fq0,          # float64[max(n_quad, 1)]    quadrature integrands at the current state
+                      #                            (Dormand-Prince only; persistent)
         y_fail,       # float64[n_main + n_quad]   state where a non-finite value appeared
         stats,        # int64[10]: steps, rejected, rhs evaluations, Jacobians, LU
                       #   factorisations, Newton iterations, time events, state events,
@@ -128,24 +132,25 @@ class Radau5(Solver):
     """
 
     name = "radau5"
+    method_code = 0   # iopt[4] of the kernel
 
     def __init__(self, *, rtol=1e-6, atol_scale=None, h0=None, max_step=math.inf, fixed_step=None,
                  batch_rows=4096, event_log_size=16384, max_events_at_instant=50, event_tol=1e-12,
                  max_steps=0, event_stage_checks=False, newton_tol=None):
         if not (0.0 < rtol < 1.0):
-            raise ValueError(f"Radau5: rtol must lie in (0, 1), got {rtol!r}")
+            raise ValueError(f"{type(self).__name__}: rtol must lie in (0, 1), got {rtol!r}")
         if atol_scale is not None and not (atol_scale > 0.0 and math.isfinite(atol_scale)):
-            raise ValueError(f"Radau5: atol_scale must be positive and finite, got {atol_scale!r}")
+            raise ValueError(f"{type(self).__name__}: atol_scale must be positive and finite, got {atol_scale!r}")
         if h0 is not None and not (h0 > 0.0 and math.isfinite(h0)):
-            raise ValueError(f"Radau5: h0 must be positive and finite, got {h0!r}")
+            raise ValueError(f"{type(self).__name__}: h0 must be positive and finite, got {h0!r}")
         if not max_step > 0.0:
-            raise ValueError(f"Radau5: max_step must be positive, got {max_step!r}")
+            raise ValueError(f"{type(self).__name__}: max_step must be positive, got {max_step!r}")
         if fixed_step is not None and not (fixed_step > 0.0 and math.isfinite(fixed_step)):
-            raise ValueError(f"Radau5: fixed_step must be positive and finite, got {fixed_step!r}")
+            raise ValueError(f"{type(self).__name__}: fixed_step must be positive and finite, got {fixed_step!r}")
         if int(batch_rows) < 1 or int(event_log_size) < 1 or int(max_events_at_instant) < 1:
-            raise ValueError("Radau5: batch_rows, event_log_size and max_events_at_instant must be >= 1")
+            raise ValueError(f"{type(self).__name__}: batch_rows, event_log_size and max_events_at_instant must be >= 1")
         if not (0.0 < event_tol < 1e-3):
-            raise ValueError(f"Radau5: event_tol must lie in (0, 1e-3), got {event_tol!r}")
+            raise ValueError(f"{type(self).__name__}: event_tol must lie in (0, 1e-3), got {event_tol!r}")
         self.rtol = float(rtol)
         self.atol_scale = float(rtol if atol_scale is None else atol_scale)
         self.h0 = None if h0 is None else float(h0)
@@ -158,7 +163,7 @@ class Radau5(Solver):
         self.max_steps = int(max_steps)
         self.event_stage_checks = bool(event_stage_checks)
         if newton_tol is not None and not (0.0 < newton_tol < 1.0):
-            raise ValueError(f"Radau5: newton_tol must lie in (0, 1), got {newton_tol!r}")
+            raise ValueError(f"{type(self).__name__}: newton_tol must lie in (0, 1), got {newton_tol!r}")
         self.newton_tol = None if newton_tol is None else float(newton_tol)
 
     def settings(self) -> dict:
@@ -182,6 +187,44 @@ class Radau5(Solver):
         return run.stats()
 
 
+class DormandPrince5(Radau5):
+    """Dormand-Prince 5(4), explicit, for non-stiff systems, in the same compiled step loop.
+
+    J. R. Dormand and P. J. Prince, "A family of embedded Runge-Kutta formulae",
+    J. Comput. Appl. Math. 6 (1980) 19-26; implementation as in Hairer, Norsett &
+    Wanner, *Solving Ordinary Differential Equations I*, II.4-II.5 (error of the
+    embedded 4th-order solution, PI step-size control, 4th-order dense output, the
+    last stage reused as the next step's first).
+
+    Same options, events, outputs, energy audit and diagnostics as :class:`Radau5`
+    (``newton_tol`` does not apply). Algebraic rows (ideal sources, bridges, rigid
+    couplings) are solved for at every stage with the differential rows fixed, by the
+    simplified Newton iteration that makes the initial state consistent, so each stage
+    derivative lies on the constraint; between step ends they are interpolated linearly.
+
+    Explicit means no Jacobian of the whole system and no linear solves per step, so a
+    step costs a fraction of a Radau step; but the step size is bounded by stability,
+    about 3.3 / |lambda| for the fastest eigenvalue lambda of the system. For a stiff
+    system (an armature of tens of microhenries, a stiff coupling) use :class:`Radau5`:
+    this method then still gets the right answer, with very many small steps.
+    """
+
+    name = "dopri5"
+    method_code = 1
+
+    def __init__(self, **options):
+        if "newton_tol" in options:
+            raise TypeError("DormandPrince5: newton_tol does not apply to an explicit method")
+        super().__init__(**options)
+
+    def settings(self) -> dict:
+        out = super().settings()
+        out.pop("newton_tol")
+        out["method"] = ("Dormand-Prince 5(4) (Dormand & Prince 1980; Hairer, Norsett & Wanner, "
+                         "Solving ODEs I, II.5)")
+        return out
+
+
 _kernel_entry = None
 
 
@@ -202,9 +245,9 @@ def _integrate(*args):
     return status
 
 
-def _check(cond, problem, msg):
+def _check(cond, problem, msg, who="Radau5"):
     if not cond:
-        raise SolverError(f"Radau5: invalid problem ({_problem_label(problem)}): {msg}")
+        raise SolverError(f"{who}: invalid problem ({_problem_label(problem)}): {msg}")
 
 
 def _problem_label(problem):
@@ -219,36 +262,37 @@ class RadauRun:
         self.solver = solver
         self.problem = problem
         mod = problem.module
+        who = type(solver).__name__
         _check(all(hasattr(mod, f"cb_{n}") for n in abi.ORDER), problem,
-               "its generated module does not export the system callbacks (append abi.export_source())")
+               "its generated module does not export the system callbacks (append abi.export_source())", who=who)
         self.callbacks = abi.callbacks(mod)
         n_main, n_quad, n_ev = int(problem.n_main), int(problem.n_quad), int(problem.n_events)
         n_tot = n_main + n_quad
         _check(n_main >= 1 and n_quad >= 0 and n_ev >= 0, problem,
-               f"sizes n_main={n_main}, n_quad={n_quad}, n_events={n_ev}")
+               f"sizes n_main={n_main}, n_quad={n_quad}, n_events={n_ev}", who=who)
         y0 = np.asarray(problem.y0, dtype=np.float64)
-        _check(y0.shape == (n_tot,), problem, f"y0 has shape {y0.shape}, expected ({n_tot},)")
+        _check(y0.shape == (n_tot,), problem, f"y0 has shape {y0.shape}, expected ({n_tot},)", who=who)
         bad = np.flatnonzero(~np.isfinite(y0))
         names = list(problem.state_names) or [f"y[{i}]" for i in range(n_tot)]
-        _check(len(names) == n_tot, problem, f"{len(names)} state names for {n_tot} states")
+        _check(len(names) == n_tot, problem, f"{len(names)} state names for {n_tot} states", who=who)
         _check(bad.size == 0, problem,
-               "non-finite initial state " + ", ".join(f"{names[i]}={y0[i]}" for i in bad[:10]))
+               "non-finite initial state " + ", ".join(f"{names[i]}={y0[i]}" for i in bad[:10]), who=who)
         mass = np.asarray(problem.mass, dtype=np.float64)
-        _check(mass.shape == (n_main,), problem, f"mass has shape {mass.shape}, expected ({n_main},)")
-        _check(bool(np.all((mass == 0.0) | (mass == 1.0))), problem, "mass entries must be 0 or 1")
+        _check(mass.shape == (n_main,), problem, f"mass has shape {mass.shape}, expected ({n_main},)", who=who)
+        _check(bool(np.all((mass == 0.0) | (mass == 1.0))), problem, "mass entries must be 0 or 1", who=who)
         nominal = np.asarray(problem.nominal, dtype=np.float64)
-        _check(nominal.shape == (n_tot,), problem, f"nominal has shape {nominal.shape}, expected ({n_tot},)")
+        _check(nominal.shape == (n_tot,), problem, f"nominal has shape {nominal.shape}, expected ({n_tot},)", who=who)
         badn = np.flatnonzero(~(np.isfinite(nominal) & (nominal > 0.0)))
         _check(badn.size == 0, problem,
                "nominal magnitudes must be positive and finite: "
-               + ", ".join(f"{names[i]}={nominal[i]}" for i in badn[:10]))
+               + ", ".join(f"{names[i]}={nominal[i]}" for i in badn[:10]), who=who)
         ev_dir = np.asarray(problem.event_direction, dtype=np.int64)
-        _check(ev_dir.shape == (n_ev,), problem, f"event_direction has shape {ev_dir.shape}, expected ({n_ev},)")
-        _check(bool(np.all(np.isin(ev_dir, (-1, 0, 1)))), problem, "event_direction entries must be -1, 0 or +1")
+        _check(ev_dir.shape == (n_ev,), problem, f"event_direction has shape {ev_dir.shape}, expected ({n_ev},)", who=who)
+        _check(bool(np.all(np.isin(ev_dir, (-1, 0, 1)))), problem, "event_direction entries must be -1, 0 or +1", who=who)
         p = np.ascontiguousarray(problem.p, dtype=np.float64).copy()
-        _check(not np.isnan(p).any(), problem, "parameter vector p contains NaN")
+        _check(not np.isnan(p).any(), problem, "parameter vector p contains NaN", who=who)
         if not (out_dt > 0.0 and math.isfinite(out_dt)):
-            raise SolverError(f"Radau5: out_dt must be positive and finite, got {out_dt!r}")
+            raise SolverError(f"{who}: out_dt must be positive and finite, got {out_dt!r}")
         self.names = names
         self.n_main, self.n_quad, self.n_events = n_main, n_quad, n_ev
         self.y = y0.copy()
@@ -266,7 +310,7 @@ class RadauRun:
                              solver.fixed_step or 0.0, solver.h0 or 0.0, solver.newton_tol or 0.0])
         call_start = 0 if getattr(problem, "start_applied", True) else 1
         self.iopt = np.array([solver.max_events_at_instant, solver.max_steps, call_start,
-                              int(solver.event_stage_checks)], dtype=np.int64)
+                              int(solver.event_stage_checks), solver.method_code], dtype=np.int64)
         n_rec = int(problem.n_record)
         # uninitialised: the kernel writes every row it hands out (zeroing a few MB per run was a
         # measurable part of a short run's cost)
@@ -289,7 +333,8 @@ class RadauRun:
         self.piv = np.zeros((3, n_main), dtype=np.int64)
         self.f0 = np.zeros(n_main)
         self.g_old = np.zeros(n_ev)
-        self.qd = np.zeros((3, n_tot))
+        self.qd = np.zeros((4, n_tot))   # row 3 stays 0 for Radau (cubic)
+        self.fq0 = np.zeros(max(n_quad, 1))
         self.y_fail = np.zeros(n_tot)
         self.stats_array = np.zeros(10, dtype=np.int64)
         self.scratch = radau_scratch(n_main, n_tot, n_ev, self.m.shape[0])
@@ -305,7 +350,7 @@ class RadauRun:
         """Integrate to ``t_end`` (inclusive), feeding ``sink``; return the statistics so far."""
         t_end = float(t_end)
         if not math.isfinite(t_end) or t_end < self.t:
-            raise SolverError(f"Radau5: t_end = {t_end!r} lies before the current time {self.t!r}")
+            raise SolverError(f"{type(self.solver).__name__}: t_end = {t_end!r} lies before the current time {self.t!r}")
         while True:
             self.ti[1] = 0
             self.ti[2] = 0
@@ -314,7 +359,7 @@ class RadauRun:
                 self.event_dir, self.n_main, self.opt, self.iopt, self.buf, self.buf_t,
                 self.log_t, self.log_comp, self.log_kind, self.log_index, self.comp_scratch,
                 self.tf, self.ti, self.jac, self.lu_r, self.lu_c, self.lu_a, self.piv, self.f0,
-                self.g_old, self.qd, self.y_fail, self.stats_array, self.scratch)
+                self.g_old, self.qd, self.fq0, self.y_fail, self.stats_array, self.scratch)
             nr, nl = int(self.ti[1]), int(self.ti[2])
             if nr:
                 # handed over (solver contract 3): the next batch gets fresh, still untouched, memory
@@ -344,7 +389,7 @@ class RadauRun:
         h = float(self.tf[11])
         kind = STATUS_TEXT.get(status, f"unknown status {status}")
         info = int(self.ti[11])
-        head = f"Radau5 failed ({_problem_label(pr)}): {kind} at t = {t:.12g} s"
+        head = f"{type(self.solver).__name__} failed ({_problem_label(pr)}): {kind} at t = {t:.12g} s"
         if status in (-1, -2):
             head += f" (last step size tried {h:.3g} s)"
         lines = [head]

@@ -1,4 +1,4 @@
-"""Compiled stiff integrator: Radau IIA of order 5 with events and dense output.
+"""Compiled integrators: Radau IIA of order 5 (stiff) and Dormand-Prince 5(4) (non-stiff), with events.
 
 Method
 ------
@@ -25,12 +25,19 @@ Coefficients (nodes, ``A``, ``T``, ``T^-1``, eigenvalues, dense-output matrix)
 are derived below at import from the collocation conditions, not typed in;
 only the error-estimate weights are the published values.
 
+The explicit alternative (``iopt[4] = 1``, :class:`emsim.solvers.compiled.DormandPrince5`)
+replaces only the step attempt and the step-size proposal: Dormand-Prince 5(4) (Dormand &
+Prince 1980; Hairer, Norsett & Wanner, *Solving ODEs I*, II.4-II.5) with the algebraic rows
+solved at every stage (:func:`dopri_attempt`), first-same-as-last, the PI controller of
+DOPRI5 and its 4th-order dense output (quartic, ``qd[3]``). Events, time events, outputs,
+logs and failure reports are the same loop for both methods.
+
 How this file is used
 ---------------------
-``radau_integrate`` takes the problem's system functions as its first nine
+``radau_integrate`` takes the problem's system functions as its first ten
 arguments: C callbacks with the fixed signatures of :mod:`emsim.solvers.abi`
 (``rhs``, ``events``, ``on_event``, ``next_time``, ``at_time``, ``start``,
-``record``, ``jacobian``, ``stages``; their contract is in
+``record``, ``jacobian``, ``stages``, ``quad_at_rhs``; their contract is in
 ``emsim/assembly/problem.py`` and ``abi.py``).
 Because those argument types are signatures, not particular functions, numba
 compiles and caches this kernel once for every system; a new system compiles
@@ -69,6 +76,7 @@ from llvmlite import ir as radau_llvm
 from numba import njit as radau_njit
 from numba import types as radau_types
 from numba.extending import intrinsic as radau_intrinsic
+from scipy.integrate import RK45 as radau_RK45
 
 from emsim.solvers import dense as radau_dense
 
@@ -128,6 +136,20 @@ radau_E = radau_np.ascontiguousarray(radau_coef["e"])
 radau_GAMMA = radau_coef["gamma"]
 radau_ALPHA = radau_coef["alpha"]
 radau_BETA = radau_coef["beta"]
+
+# Dormand-Prince 5(4) (J. R. Dormand and P. J. Prince, J. Comput. Appl. Math. 6, 1980; Hairer, Norsett &
+# Wanner, Solving ODEs I, II.5), the explicit method for non-stiff systems: the tableau, error weights and
+# 4th-order dense-output matrix are taken from scipy's implementation rather than typed in again. Row 6 of
+# DP_A is the solution weights b: that stage is f at the new point (first same as last).
+radau_DP_C = radau_np.ascontiguousarray(radau_np.append(radau_RK45.C, 1.0))
+radau_DP_A = radau_np.zeros((7, 6))
+radau_DP_A[:6, :5] = radau_RK45.A
+radau_DP_A[6, :] = radau_RK45.B
+radau_DP_E = radau_np.ascontiguousarray(radau_RK45.E)
+radau_DP_P = radau_np.ascontiguousarray(radau_RK45.P)
+# step-size controller of Hairer's DOPRI5 (Solving ODEs I, II.4, (4.13) and the PI stabilisation of IV.2)
+radau_DP_BETA = 0.04
+radau_DP_EXPO = 0.2 - 0.75 * radau_DP_BETA
 
 radau_EPS = 2.220446049250313e-16
 radau_SAFE = 0.9
@@ -221,6 +243,19 @@ def radau_jacobian(jacobian_fn, rhs_fn, t, y, p, m, d, w, f0, nominal, n, jac, f
         for i in range(n):
             jac[i, j] = (ftmp[i] - f0[i]) * inv
     stats[radau_S_RHS] += n
+
+
+@radau_njit(cache=True, inline="always")
+def radau_worst_row(err, sc, n):
+    """Row with the largest weighted error ``|err / sc|`` (the one named when steps fail), -1 if none."""
+    worst = 0.0
+    row = -1
+    for i in range(n):
+        q = abs(err[i] / sc[i])
+        if q > worst:
+            worst = q
+            row = i
+    return row
 
 
 @radau_njit(cache=True, inline="always")
@@ -419,6 +454,133 @@ def radau_make_consistent(jacobian_fn, rhs_fn, t, y, p, m, d, w, n, alg, n_alg, 
     return radau_STATUS_NEWTON
 
 
+@radau_njit(cache=True, inline="always")
+def dopri_quad_here(quad_fn, rhs_fn, t, y, p, m, d, w, fq, ftmp, w_stale, stats):
+    """Quadrature integrands at (t, y) after a consistency solve there (``w_stale``: it ended on a Jacobian)."""
+    if w_stale:
+        rhs_fn(t, y, p, m, d, w, ftmp)
+        stats[radau_S_RHS] += 1
+    quad_fn(t, y, p, m, d, w, fq)
+    stats[radau_S_QUAD] += 1
+
+
+# not inlined: numba's inliner cannot inline this one into the loop (it already inlines the consistency
+# solve); one call per step costs nothing next to its seven right-hand sides
+@radau_njit(cache=True)
+def dopri_attempt(jacobian_fn, rhs_fn, quad_fn, t, h, y, ynew, p, m, d, w, mass, n, alg, n_alg, atol, rtol,
+                  nominal, jac, lu_a, piv, f0, fq0, kst, kq, ys, ftmp, dz, err, sc, y_fail, tf, ti, stats):
+    """One Dormand-Prince 5(4) step of size ``h`` from ``(t, y)`` into ``ynew``; returns (status, error norm).
+
+    Stage 0 is ``f0`` (and ``fq0``, the quadrature integrands) at the step start. At every
+    later stage the differential rows come from the tableau and the algebraic rows are
+    solved for by :func:`radau_make_consistent` (starting from the previous stage's values),
+    so each stage derivative is taken on the constraint (index 1); the quadrature integrands
+    are evaluated at the same consistent stage points and integrated with the same weights.
+    Stage 6 is the new point: ``kst[6]``, ``kq[6]`` serve as the next step's stage 0.
+    The error norm is the weighted RMS of the embedded 4th-order difference over the
+    differential rows. ``status`` is 0 or the consistency solve's failure code.
+    """
+    n_tot = y.shape[0]
+    n_quad = n_tot - n
+    for j in range(n_tot):
+        ys[j] = y[j]
+    for j in range(n):
+        kst[0, j] = f0[j]
+    for q in range(n_quad):
+        kq[0, q] = fq0[q]
+    for i in range(1, 7):
+        for j in range(n):
+            if mass[j] != 0.0:
+                acc = 0.0
+                for l in range(i):
+                    acc += radau_DP_A[i, l] * kst[l, j]
+                x_new = y[j] + h * acc
+                err[j] = x_new - ys[j]    # (err is free until the error estimate) the move from the last stage
+                ys[j] = x_new
+        if n_alg > 0 and ti[radau_I_JAC] == 1 and ti[radau_I_LUA] == 1:
+            # predict the algebraic rows along the move: J_zz dz = -J_zx dx (implicit function theorem),
+            # so with linear constraints and a current Jacobian the solve below converges at once
+            for k in range(n_alg):
+                acc = 0.0
+                for j in range(n):
+                    if mass[j] != 0.0:
+                        acc += jac[alg[k], j] * err[j]
+                dz[k] = acc
+            radau_dense.lu_solve(lu_a, piv[2], dz, n_alg)
+            for k in range(n_alg):
+                ys[alg[k]] -= dz[k]
+        t_i = t + radau_DP_C[i] * h
+        n_jac = stats[radau_S_JAC]
+        n_rhs = stats[radau_S_RHS]
+        st = radau_make_consistent(jacobian_fn, rhs_fn, t_i, ys, p, m, d, w, n, alg, n_alg, atol, rtol, nominal,
+                                   jac, lu_a, piv, kst[i], ftmp, dz, y_fail, tf, ti, stats)
+        if st != 0:
+            return st, radau_np.inf
+        jac_now = stats[radau_S_JAC] != n_jac
+        if not jac_now and ti[radau_I_JACNOW] == 0 and stats[radau_S_RHS] - n_rhs > 1:
+            # the prediction missed: the algebraic block changed (a new duty, a new mode) or is
+            # nonlinear. A fresh Jacobian for the next stage, at most one per step
+            ti[radau_I_JAC] = 0
+        if n_quad > 0:
+            dopri_quad_here(quad_fn, rhs_fn, t_i, ys, p, m, d, w, kq[i], ftmp, jac_now, stats)
+            if not radau_dense.all_finite(kq[i], n_quad):
+                for j in range(n_tot):
+                    y_fail[j] = ys[j]
+                tf[radau_F_TFAIL] = t_i
+                ti[radau_I_FAILINFO] = -1
+                return radau_STATUS_NONFINITE, radau_np.inf
+    acc = 0.0
+    nd = 0
+    for j in range(n):
+        ynew[j] = ys[j]
+        sc[j] = atol[j] + rtol * max(abs(y[j]), abs(ys[j]))
+        err[j] = 0.0
+        if mass[j] != 0.0:
+            e = 0.0
+            for l in range(7):
+                e += radau_DP_E[l] * kst[l, j]
+            err[j] = h * e
+            q = err[j] / sc[j]
+            acc += q * q
+            nd += 1
+    for q in range(n_quad):
+        e = 0.0
+        for l in range(6):
+            e += radau_DP_A[6, l] * kq[l, q]
+        ynew[n + q] = y[n + q] + h * e
+    return 0, (radau_math.sqrt(acc / nd) if nd > 0 else 0.0)
+
+
+@radau_njit(cache=True, inline="always")
+def dopri_dense(h, yold, ynew, mass, n, kst, kq, qd):
+    """The quartic dense output of a Dormand-Prince step in the ``qd`` form of :func:`radau_interp`.
+
+    Differential and quadrature rows: the published 4th-order continuous extension.
+    Algebraic rows carry no stage derivatives: they are interpolated linearly between
+    the two consistent end points (inside a step an output row or event function
+    sees them to O(h^2); at step ends they are exact).
+    """
+    n_tot = ynew.shape[0]
+    for i in range(n):
+        if mass[i] != 0.0:
+            for k in range(4):
+                acc = 0.0
+                for l in range(7):
+                    acc += radau_DP_P[l, k] * kst[l, i]
+                qd[k, i] = h * acc
+        else:
+            qd[0, i] = ynew[i] - yold[i]
+            qd[1, i] = 0.0
+            qd[2, i] = 0.0
+            qd[3, i] = 0.0
+    for q in range(n_tot - n):
+        for k in range(4):
+            acc = 0.0
+            for l in range(7):
+                acc += radau_DP_P[l, k] * kq[l, q]
+            qd[k, n + q] = h * acc
+
+
 @radau_njit(cache=True)
 def radau_initial_step(rhs_fn, t, y, p, m, d, w, f0, mass, n, atol, rtol, ys, ftmp, stats):
     """Initial step from the size of y, y' and an estimate of y'' on the differential rows."""
@@ -464,12 +626,17 @@ def radau_initial_step(rhs_fn, t, y, p, m, d, w, f0, mass, n, atol, rtol, ys, ft
 
 @radau_njit(cache=True, inline="always")
 def radau_interp(tq, t_s, h_s, y_s, qd, yint):
-    """Collocation polynomial of the last step at time ``tq`` into ``yint``."""
+    """Dense output of the last step at time ``tq`` into ``yint``.
+
+    ``y_s + sum_k qd[k] x**(k+1)`` with ``x = (tq - t_s) / h_s``: Radau's collocation
+    polynomial (cubic, ``qd[3] = 0``) or the explicit method's quartic.
+    """
     x = (tq - t_s) / h_s
     x2 = x * x
     x3 = x2 * x
+    x4 = x3 * x
     for i in range(yint.shape[0]):
-        yint[i] = y_s[i] + qd[0, i] * x + qd[1, i] * x2 + qd[2, i] * x3
+        yint[i] = y_s[i] + qd[0, i] * x + qd[1, i] * x2 + qd[2, i] * x3 + qd[3, i] * x4
 
 
 @radau_njit(cache=True, inline="always")
@@ -637,7 +804,9 @@ def radau_scratch(n_main, n_tot, n_events, n_modes):
             radau_np.zeros(e1, dtype=radau_np.bool_),       # ev_hit
             radau_np.zeros(max(n_modes, 1), dtype=radau_np.int64),  # m_prev
             radau_np.zeros(n1, dtype=radau_np.int64),       # alg: algebraic row indices
-            radau_np.zeros(3))                              # ts3: stage times
+            radau_np.zeros(3),                              # ts3: stage times
+            radau_np.zeros((7, n1)),                        # kst: explicit stage derivatives
+            radau_np.zeros((7, max(n_tot - n_main, 1))))    # kq: explicit stage quadrature integrands
 
 
 @radau_intrinsic
@@ -664,9 +833,10 @@ def radau_borrow(typingctx, arr):
 
 
 @radau_njit(cache=True, error_model="numpy")
-def radau_integrate(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, jacobian_fn, stages_fn, t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
+def radau_integrate(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, jacobian_fn, stages_fn,
+                    quad_fn, t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
                     opt, iopt, buf, buf_t, log_t, log_comp, log_kind, log_index, comp_scratch,
-                    tf, ti, jac, lu_r, lu_c, lu_a, piv, f0, g_old, qd, y_fail, stats, scratch):
+                    tf, ti, jac, lu_r, lu_c, lu_a, piv, f0, g_old, qd, fq0, y_fail, stats, scratch):
     """Integrate from ``tf[F_T]`` towards ``t_end``; return a status code.
 
     See ``emsim/solvers/compiled.py`` for the meaning of every argument. The
@@ -676,25 +846,26 @@ def radau_integrate(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, st
     :func:`radau_scratch`'s tuple. Every array is passed on as a borrowed
     view (:func:`radau_borrow`): the caller keeps the arrays alive.
     """
-    zs, wts, fs, fqs, vec, small, bcs, evs, ev_hits, m_prevs, algs, ts3s = scratch
+    zs, wts, fs, fqs, vec, small, bcs, evs, ev_hits, m_prevs, algs, ts3s, ksts, kqs = scratch
     b = radau_borrow
     return radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, jacobian_fn,
-                      stages_fn, t_end, b(y), b(p), b(m), b(d), b(w), b(mass), b(atol), b(nominal), b(event_dir), n_main,
+                      stages_fn, quad_fn, t_end, b(y), b(p), b(m), b(d), b(w), b(mass), b(atol), b(nominal), b(event_dir), n_main,
                       b(opt), b(iopt), b(buf), b(buf_t), b(log_t), b(log_comp), b(log_kind), b(log_index),
                       b(comp_scratch), b(tf), b(ti), b(jac), b(lu_r), b(lu_c), b(lu_a), b(piv), b(f0), b(g_old),
-                      b(qd), b(y_fail), b(stats),
+                      b(qd), b(fq0), b(y_fail), b(stats),
                       b(zs), b(wts), b(fs), b(fqs), b(vec[0]), b(vec[1]), b(vec[2]), b(vec[3]), b(vec[4]),
                       b(vec[5]), b(small[0]), b(bcs), b(small[1]), b(small[2]), b(small[3]), b(small[4]),
-                      b(evs[0]), b(evs[3:5]), b(evs[1]), b(ev_hits), b(evs[2]), b(m_prevs), b(algs), b(ts3s))
+                      b(evs[0]), b(evs[3:5]), b(evs[1]), b(ev_hits), b(evs[2]), b(m_prevs), b(algs), b(ts3s), b(ksts), b(kqs))
 
 
 # without the runtime: no reference counting at all in the loop (every array is the driver's; nothing allocates)
 @radau_njit(cache=True, error_model="numpy", _nrt=False)
-def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, jacobian_fn, stages_fn, t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
+def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, jacobian_fn, stages_fn,
+               quad_fn, t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
                opt, iopt, buf, buf_t, log_t, log_comp, log_kind, log_index, comp_scratch,
-               tf, ti, jac, lu_r, lu_c, lu_a, piv, f0, g_old, qd, y_fail, stats,
+               tf, ti, jac, lu_r, lu_c, lu_a, piv, f0, g_old, qd, fq0, y_fail, stats,
                z, wt, f, fq, ys, ynew, yold, yint, ysave, sc, br, bc, ftmp, err, zm, dz,
-               g_new, g_st, gtmp, ev_hit, ev_root, m_prev, alg, ts3):
+               g_new, g_st, gtmp, ev_hit, ev_root, m_prev, alg, ts3, kst, kq):
     """The step loop of :func:`radau_integrate` (all arrays borrowed views, scratch included)."""
     n = n_main
     n_tot = y.shape[0]
@@ -713,6 +884,7 @@ def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_f
     max_at_instant = iopt[0]
     max_steps = iopt[1]
     stage_checks = iopt[3] != 0
+    explicit = iopt[4] == 1    # Dormand-Prince 5(4) instead of Radau IIA
     fnewt = opt[7] if opt[7] > 0.0 else max(10.0 * radau_EPS / rtol, min(0.03, radau_math.sqrt(rtol)))
     maxit = 30 if fixed else radau_MAXIT
 
@@ -742,10 +914,13 @@ def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_f
         tf[radau_F_TANCHOR] = -radau_np.inf
         tf[radau_F_ETA] = 1.0
         tf[radau_F_HACC] = 0.0
+        n_jac = stats[radau_S_JAC]
         st = radau_make_consistent(jacobian_fn, rhs_fn, t, y, p, m, d, w, n, alg, n_alg, atol, rtol, nominal,
                                    jac, lu_a, piv, f0, ftmp, dz, y_fail, tf, ti, stats)
         if st != 0:
             return st
+        if explicit and n_quad > 0:
+            dopri_quad_here(quad_fn, rhs_fn, t, y, p, m, d, w, fq0, ftmp, stats[radau_S_JAC] != n_jac, stats)
         if n_ev > 0:
             events_fn(t, y, p, m, d, w, g_old)
             stats[radau_S_EVENT_FN] += 1
@@ -815,6 +990,7 @@ def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_f
         nit = 0
         rate = 0.0
         errn = 0.0
+        dw_last = 0.0
         ti[radau_I_REJ] = 0
         while True:
             hmin = 16.0 * radau_EPS * abs(t)
@@ -835,6 +1011,36 @@ def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_f
                 if cause == 2:
                     return radau_STATUS_NEWTON
                 return radau_STATUS_STEP_TOO_SMALL
+            if explicit:
+                code, errn = dopri_attempt(jacobian_fn, rhs_fn, quad_fn, t, h, y, ynew, p, m, d, w, mass, n, alg,
+                                           n_alg, atol, rtol, nominal, jac, lu_a, piv, f0, fq0, kst, kq, ys, ftmp,
+                                           dz, err, sc, y_fail, tf, ti, stats)
+                if code != 0:
+                    # the algebraic rows could not be solved at a stage (or a value was not finite)
+                    n_fail += 1
+                    stats[radau_S_REJECTED] += 1
+                    ti[radau_I_REJ] = 1
+                    cause = 3 if code == radau_STATUS_NONFINITE else 2
+                    h *= 0.5
+                    lands = False
+                    continue
+                if fixed:
+                    errn = 0.0
+                    break
+                if errn < 1.0:
+                    break
+                n_fail += 1
+                stats[radau_S_REJECTED] += 1
+                ti[radau_I_REJ] = 1
+                if not radau_math.isfinite(errn):
+                    cause = 3
+                    h *= 0.5
+                else:
+                    cause = 1
+                    ti[radau_I_FAILINFO] = radau_worst_row(err, sc, n)
+                    h = h / min(5.0, errn ** radau_DP_EXPO / radau_SAFE)
+                lands = False
+                continue
             if ti[radau_I_JAC] == 0:
                 radau_jacobian(jacobian_fn, rhs_fn, t, y, p, m, d, w, f0, nominal, n, jac, ftmp, stats)
                 ti[radau_I_JAC] = 1
@@ -924,12 +1130,7 @@ def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_f
             n_fail += 1
             cause = 1
             stats[radau_S_REJECTED] += 1
-            worst = 0.0
-            for i in range(n):
-                q = abs(err[i] / sc[i])
-                if q > worst:
-                    worst = q
-                    ti[radau_I_FAILINFO] = i
+            ti[radau_I_FAILINFO] = radau_worst_row(err, sc, n)
             for i in range(n):
                 sc[i] = atol[i] + rtol * abs(y[i])
             fac = min(radau_SAFE, radau_SAFE * (1 + 2 * radau_MAXIT) / (nit + 2 * radau_MAXIT))
@@ -946,60 +1147,77 @@ def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_f
         h_s = h
         t_new = t_land if lands else t + h
         f_converged = False
-        if n_quad > 0:
-            if dw_last > radau_QUAD_REUSE * fnewt:
-                # the integrands at the converged stages, in one callback (f is free once Newton is done;
-                # ts3 holds this step's stage times). Newton's last evaluation is too far from them: when
-                # Newton stops after one iteration its stages are the starting guess
-                stages_fn(ts3, y, z, ys, p, m, d, w, f, fq, 1)
-                stats[radau_S_RHS] += 3
-                stats[radau_S_QUAD] += 3
-                f_converged = True
-            # else: Newton's last evaluation, a correction of at most QUAD_REUSE * fnewt error weights away
-            for s in range(3):
-                if not radau_dense.all_finite(fq[s], n_quad):
-                    for j in range(n):
-                        y_fail[j] = y[j] + z[s, j]
-                    for j in range(n, n_tot):
-                        y_fail[j] = y[j]
-                    tf[radau_F_T] = t
-                    tf[radau_F_TFAIL] = t + radau_C[s] * h
-                    tf[radau_F_HFAIL] = h
-                    ti[radau_I_FAILINFO] = -1
-                    return radau_STATUS_NONFINITE
-            for q in range(n_quad):
+        if explicit:
+            dopri_dense(h, yold, ynew, mass, n, kst, kq, qd)
+            tf[radau_F_QT] = t_s
+            tf[radau_F_QH] = h_s
+            stats[radau_S_STEPS] += 1
+            if not fixed:
+                fac11 = errn ** radau_DP_EXPO
+                facold = tf[radau_F_ERRACC] if tf[radau_F_ERRACC] > 0.0 else 1e-4
+                fac = max(0.1, min(5.0, fac11 / facold ** radau_DP_BETA / radau_SAFE))
+                h_new = h / fac
+                if ti[radau_I_REJ] == 1 and h_new > h:
+                    h_new = h
+                tf[radau_F_ERRACC] = max(errn, 1e-4)
+                if ti[radau_I_POSTEV] == 1:
+                    tf[radau_F_HPOST] = h_new
+                tf[radau_F_H] = h_new
+        else:
+            if n_quad > 0:
+                if dw_last > radau_QUAD_REUSE * fnewt:
+                    # the integrands at the converged stages, in one callback (f is free once Newton is done;
+                    # ts3 holds this step's stage times). Newton's last evaluation is too far from them: when
+                    # Newton stops after one iteration its stages are the starting guess
+                    stages_fn(ts3, y, z, ys, p, m, d, w, f, fq, 1)
+                    stats[radau_S_RHS] += 3
+                    stats[radau_S_QUAD] += 3
+                    f_converged = True
+                # else: Newton's last evaluation, a correction of at most QUAD_REUSE * fnewt error weights away
                 for s in range(3):
-                    z[s, n + q] = h * (radau_A[s, 0] * fq[0, q] + radau_A[s, 1] * fq[1, q]
-                                       + radau_A[s, 2] * fq[2, q])
-                ynew[n + q] = y[n + q] + z[2, n + q]
-        for i in range(n_tot):
-            for kk in range(3):
-                qd[kk, i] = radau_P[kk, 0] * z[0, i] + radau_P[kk, 1] * z[1, i] + radau_P[kk, 2] * z[2, i]
-        tf[radau_F_QT] = t_s
-        tf[radau_F_QH] = h_s
-        ti[radau_I_EXT] = 1
-        stats[radau_S_STEPS] += 1
+                    if not radau_dense.all_finite(fq[s], n_quad):
+                        for j in range(n):
+                            y_fail[j] = y[j] + z[s, j]
+                        for j in range(n, n_tot):
+                            y_fail[j] = y[j]
+                        tf[radau_F_T] = t
+                        tf[radau_F_TFAIL] = t + radau_C[s] * h
+                        tf[radau_F_HFAIL] = h
+                        ti[radau_I_FAILINFO] = -1
+                        return radau_STATUS_NONFINITE
+                for q in range(n_quad):
+                    for s in range(3):
+                        z[s, n + q] = h * (radau_A[s, 0] * fq[0, q] + radau_A[s, 1] * fq[1, q]
+                                           + radau_A[s, 2] * fq[2, q])
+                    ynew[n + q] = y[n + q] + z[2, n + q]
+            for i in range(n_tot):
+                for kk in range(3):
+                    qd[kk, i] = radau_P[kk, 0] * z[0, i] + radau_P[kk, 1] * z[1, i] + radau_P[kk, 2] * z[2, i]
+            tf[radau_F_QT] = t_s
+            tf[radau_F_QH] = h_s
+            ti[radau_I_EXT] = 1
+            stats[radau_S_STEPS] += 1
 
-        # step-size proposal
-        if nit > 2 and rate > 1e-3:
-            ti[radau_I_JAC] = 0
-        if not fixed:
-            fac = min(radau_SAFE, radau_SAFE * (1 + 2 * radau_MAXIT) / (nit + 2 * radau_MAXIT))
-            quot = max(0.125, min(5.0, radau_math.sqrt(radau_math.sqrt(errn)) / fac))
-            if ti[radau_I_POSTEV] == 1:
-                tf[radau_F_HPOST] = h / quot
-            if ti[radau_I_FIRST] == 0 and tf[radau_F_HACC] > 0.0:
-                facgus = (tf[radau_F_HACC] / h) * radau_math.sqrt(radau_math.sqrt(errn * errn / tf[radau_F_ERRACC])) / radau_SAFE
-                facgus = max(0.125, min(5.0, facgus))
-                quot = max(quot, facgus)
-            tf[radau_F_HACC] = h
-            tf[radau_F_ERRACC] = max(1e-2, errn)
-            h_new = h / quot
-            if ti[radau_I_REJ] == 1 and h_new > h:
-                h_new = h
-            if ti[radau_I_JAC] == 1 and h_new >= h and h_new <= 1.2 * h:
-                h_new = h
-            tf[radau_F_H] = h_new
+            # step-size proposal
+            if nit > 2 and rate > 1e-3:
+                ti[radau_I_JAC] = 0
+            if not fixed:
+                fac = min(radau_SAFE, radau_SAFE * (1 + 2 * radau_MAXIT) / (nit + 2 * radau_MAXIT))
+                quot = max(0.125, min(5.0, radau_math.sqrt(radau_math.sqrt(errn)) / fac))
+                if ti[radau_I_POSTEV] == 1:
+                    tf[radau_F_HPOST] = h / quot
+                if ti[radau_I_FIRST] == 0 and tf[radau_F_HACC] > 0.0:
+                    facgus = (tf[radau_F_HACC] / h) * radau_math.sqrt(radau_math.sqrt(errn * errn / tf[radau_F_ERRACC])) / radau_SAFE
+                    facgus = max(0.125, min(5.0, facgus))
+                    quot = max(quot, facgus)
+                tf[radau_F_HACC] = h
+                tf[radau_F_ERRACC] = max(1e-2, errn)
+                h_new = h / quot
+                if ti[radau_I_REJ] == 1 and h_new > h:
+                    h_new = h
+                if ti[radau_I_JAC] == 1 and h_new >= h and h_new <= 1.2 * h:
+                    h_new = h
+                tf[radau_F_H] = h_new
         ti[radau_I_JACNOW] = 0
         ti[radau_I_FIRST] = 0
         ti[radau_I_REJ] = 0
@@ -1031,13 +1249,21 @@ def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_f
         if time_due:
             t = tf[radau_F_TN]
         if n_hit == 0 and not time_due:
-            if f_converged and not lands and ts3[2] == t:
+            if explicit and not lands:
+                # first same as last: the last stage was this point, made consistent
+                for i in range(n):
+                    f0[i] = kst[6, i]
+                for q in range(n_quad):
+                    fq0[q] = kq[6, q]
+            elif f_converged and not lands and ts3[2] == t:
                 # the quadrature call evaluated the last stage, (t_s + h, y_s + z_3) = (t, y): f0 is known
                 for i in range(n):
                     f0[i] = f[2, i]
             else:
                 rhs_fn(t, y, p, m, d, w, f0)
                 stats[radau_S_RHS] += 1
+                if explicit and n_quad > 0:
+                    dopri_quad_here(quad_fn, rhs_fn, t, y, p, m, d, w, fq0, ftmp, False, stats)
             bad = radau_dense.first_nonfinite(f0, n)
             if bad >= 0:
                 for i in range(n_tot):
@@ -1103,11 +1329,14 @@ def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_f
                     ti[radau_I_EXT] = 0
                     break
         ti[radau_I_NLOG] = nlog
+        n_jac = stats[radau_S_JAC]
         st = radau_make_consistent(jacobian_fn, rhs_fn, t, y, p, m, d, w, n, alg, n_alg, atol, rtol, nominal,
                                    jac, lu_a, piv, f0, ftmp, dz, y_fail, tf, ti, stats)
         if st != 0:
             tf[radau_F_T] = t
             return st
+        if explicit and n_quad > 0:
+            dopri_quad_here(quad_fn, rhs_fn, t, y, p, m, d, w, fq0, ftmp, stats[radau_S_JAC] != n_jac, stats)
         if n_ev > 0:
             events_fn(t, y, p, m, d, w, g_old)
             stats[radau_S_EVENT_FN] += 1

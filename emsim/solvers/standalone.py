@@ -186,16 +186,20 @@ def compile_standalone(rhs, y0, *, n_main=None, mass=None, events=None, directio
     )
 
 
-def solve_standalone(problem: Problem, t_end: float, *, out_dt: float, **options):
-    """Run :class:`~emsim.solvers.compiled.Radau5` in memory.
+def solve_standalone(problem: Problem, t_end: float, *, out_dt: float, method: str = "radau5", **options):
+    """Run :class:`~emsim.solvers.compiled.Radau5` (``method="radau5"``) or
+    :class:`~emsim.solvers.compiled.DormandPrince5` (``"dopri5"``) in memory.
 
     Returns ``(t, rows, events, stats)`` where ``events`` is the tuple
     ``(t, component, kind, index)`` of the event log.
     """
     from ..results.memory import MemoryRecorder
-    from .compiled import Radau5
+    from .compiled import DormandPrince5, Radau5
 
+    classes = {"radau5": Radau5, "dopri5": DormandPrince5}
+    if method not in classes:
+        raise ValueError(f"solve_standalone: method must be one of {sorted(classes)}, got {method!r}")
     sink = MemoryRecorder()
-    stats = Radau5(**options).run(problem, t_end, out_dt=out_dt, sink=sink)
+    stats = classes[method](**options).run(problem, t_end, out_dt=out_dt, sink=sink)
     t, rows = sink.arrays()
     return t, rows, sink.event_arrays(), stats
