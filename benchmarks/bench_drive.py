@@ -159,8 +159,9 @@ def _bench_emsim(runner, variant, ref, rows):
     rt_rtol, rt_ok = matched_rtol(strictest_var)
     rt_time = emsim_time(rt_rtol)
 
+    label = runner.label(variant) if hasattr(runner, "label") else "emsim"
     for rtol in sorted(timed, reverse=True):
-        rows.append(dict(name="emsim", settings=f"rtol={rtol:g}", sim=SIM_SECONDS,
+        rows.append(dict(name=label, settings=f"rtol={rtol:g}", sim=SIM_SECONDS,
                          wall=timed[rtol], per_sim=timed[rtol] / SIM_SECONDS,
                          err=probes[rtol], note="median of 5"))
     return dict(lines=lines, rt=(rt_rtol, rt_ok, rt_time), compile_s=compile_s,

@@ -465,8 +465,9 @@ def dopri_quad_here(quad_fn, rhs_fn, t, y, p, m, d, w, fq, ftmp, w_stale, stats)
 
 
 # not inlined: numba's inliner cannot inline this one into the loop (it already inlines the consistency
-# solve); one call per step costs nothing next to its seven right-hand sides
-@radau_njit(cache=True)
+# solve); one call per step costs nothing next to its seven right-hand sides. Like the loop, without
+# reference counting (its ~40 array arguments and row views all belong to the loop's caller)
+@radau_njit(cache=True, error_model="numpy", _nrt=False)
 def dopri_attempt(jacobian_fn, rhs_fn, quad_fn, t, h, y, ynew, p, m, d, w, mass, n, alg, n_alg, atol, rtol,
                   nominal, jac, lu_a, piv, f0, fq0, kst, kq, ys, ftmp, dz, err, sc, y_fail, tf, ti, stats):
     """One Dormand-Prince 5(4) step of size ``h`` from ``(t, y)`` into ``ynew``; returns (status, error norm).
