@@ -202,8 +202,9 @@ class DormandPrince5(Radau5):
     simplified Newton iteration that makes the initial state consistent, so each stage
     derivative lies on the constraint; between step ends they are interpolated linearly.
 
-    Explicit means no Jacobian of the whole system and no linear solves per step, so a
-    step costs a fraction of a Radau step; but the step size is bounded by stability,
+    Explicit means no Newton iteration on the whole system: the Jacobian serves only the
+    algebraic rows' small solve (evaluated when their prediction misses, at most once per
+    step), so a step costs less than a Radau step; but the step size is bounded by stability,
     about 3.3 / |lambda| for the fastest eigenvalue lambda of the system. For a stiff
     system (an armature of tens of microhenries, a stiff coupling) use :class:`Radau5`:
     this method then still gets the right answer, with very many small steps.
