@@ -3,10 +3,13 @@
 Both kernels run in one process, alternately, on the emsim benchmark drives; prints the
 median of 7 wall times for 10 s simulated, the ratio new/base, and the solver statistics.
 The base kernel is read from git (``python benchmarks/kernel_ab.py [REV]``, default HEAD)
-into a temporary module, so no copy of the kernel lives in the repository.
+into a temporary module, so no copy of the kernel lives in the repository. The method is
+Radau5 unless ``EMSIM_AB_METHOD=dopri5``; ``EMSIM_AB_VARIANTS`` (comma-separated) and
+``EMSIM_AB_RTOLS`` choose the drives and tolerances.
 """
 from __future__ import annotations
 
+import os
 import statistics
 import sys
 import time
@@ -42,19 +45,21 @@ import drive_model as dm  # noqa: E402
 import emsim_side  # noqa: E402
 
 REPS = 7
+METHOD = comp.DormandPrince5 if os.environ.get("EMSIM_AB_METHOD") == "dopri5" else comp.Radau5
 
 
 def run(prob, rtol, kernel):
     comp.radau_integrate = kernel.radau_integrate
     comp.radau_scratch = kernel.radau_scratch
-    solver = comp.Radau5(rtol=rtol, batch_rows=16384)
+    solver = METHOD(rtol=rtol, batch_rows=16384)
     t0 = time.perf_counter()
     res = emsim.simulate(prob, dm.T_END, out_dt=dm.TS, solver=solver)
     return time.perf_counter() - t0, res
 
 
-def main(variants=None, rtols=(1e-4, 1e-6, 1e-8)):
-    variants = variants or ["averaged-drive", "stiff-drive"]
+def main(variants=None, rtols=None):
+    variants = variants or os.environ.get("EMSIM_AB_VARIANTS", "averaged-drive,stiff-drive").split(",")
+    rtols = rtols or [float(r) for r in os.environ.get("EMSIM_AB_RTOLS", "1e-4,1e-6,1e-8").split(",")]
     for v in variants:
         prob = emsim.assemble(emsim_side.build(v))
         for k in (base_k, new_k):

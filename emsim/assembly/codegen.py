@@ -67,7 +67,7 @@ def generate(st: Structure, lay: Layout) -> tuple[str, list[str], list[str], str
     src("import math")
     src("import numpy as np")
     src("import numba as nb")
-    src("from emsim.assembly.runtime import resolve_class, view")
+    src("from emsim.assembly.runtime import resolve_class, view, view2")
     src()
     for cls in classes:
         i = cid[cls]

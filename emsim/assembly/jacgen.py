@@ -90,8 +90,11 @@ def generate_jacobian(st: Structure, lay: Layout, jit: str, kern, args_core, nod
         if nx == 0 and npt == 0:
             continue
         x, a, f, u, pp, mm, dd = args_core(ci)
-        lines.append(f"    jx = np.zeros(({nx + npt}, {nx}))")
-        lines.append(f"    ja = np.zeros(({nx + npt}, {npt}))")
+        js, size = W["JS"], (nx + npt) * (nx + npt)
+        lines.append(f"    for i in range({js}, {js + size}):")
+        lines.append("        w[i] = 0.0")
+        lines.append(f"    jx = view2(w, {js}, {nx + npt}, {nx})")
+        lines.append(f"    ja = view2(w, {js + (nx + npt) * nx}, {nx + npt}, {npt})")
         lines.append(f"    {kern(ci, 'jacobian')}(t, {x}, {a}, {u}, {pp}, {mm}, {dd}, jx, ja)")
         cols = [column_of_port(s.ports[0] + k) for k in range(npt)]
         # own state rows

@@ -142,7 +142,9 @@ def lay_out(st: Structure) -> Layout:
     # work-array regions
     n_ports = port_i
     regions = [("PA", n_ports), ("PF", n_ports), ("S", si), ("U", ui), ("OUT", oi), ("DX", n_main),
-               ("SC", len(st.nodes)), ("ACC", len(st.groups)), ("GX", max(1, len(st.couplings)))]
+               ("SC", len(st.nodes)), ("ACC", len(st.groups)), ("GX", max(1, len(st.couplings))),
+               # one component's jacobian matrices at a time: (states + ports) rows, as many columns
+               ("JS", max([(s.x[1] - s.x[0] + s.ports[1] - s.ports[0]) ** 2 for s in slots] + [1]))]
     off = 0
     for name, size in regions:
         lay.work[name] = off

@@ -42,3 +42,29 @@ def view(typingctx, arr, start, stop):
         return out._getvalue()
 
     return sig, codegen
+
+
+@intrinsic
+def view2(typingctx, arr, start, rows, cols):
+    """``arr[start:start + rows * cols]`` as a C-ordered ``rows x cols`` matrix, like :func:`view`.
+
+    The generated Jacobian hands each component's ``jacobian`` kernel its two
+    partial-derivative matrices as such views of the work array, so evaluating
+    the Jacobian allocates nothing (it runs every few steps: after each new
+    duty, the explicit method refreshes its algebraic block).
+    """
+    if not (isinstance(arr, types.Array) and arr.ndim == 1 and arr.layout == "C"):
+        return None
+    result = types.Array(arr.dtype, 2, "C")
+    sig = result(arr, types.intp, types.intp, types.intp)
+
+    def codegen(context, builder, sig, args):
+        src = context.make_array(sig.args[0])(context, builder, args[0])
+        out = context.make_array(sig.return_type)(context, builder)
+        itemsize = context.get_constant(types.intp, context.get_abi_sizeof(context.get_data_type(arr.dtype)))
+        context.populate_array(out, data=builder.gep(src.data, [args[1]]), shape=[args[2], args[3]],
+                               strides=[builder.mul(args[3], itemsize), itemsize], itemsize=itemsize,
+                               meminfo=None, parent=None)
+        return out._getvalue()
+
+    return sig, codegen

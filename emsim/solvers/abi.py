@@ -71,9 +71,8 @@ def system_stages(ts, y, z, ys, p, m, d, w, f, fq, want_quad):
 """
 
 
-# rare calls (a Jacobian only when the solver asks for a new one; start once per run), and the
-# generated Jacobian allocates
-_WITH_RUNTIME = ("jacobian", "start")
+# once per run, and a component's start kernel may allocate
+_WITH_RUNTIME = ("start",)
 
 
 def export_source(lean: bool = True) -> str:
