@@ -217,9 +217,11 @@ def build_benchmark_drive(variant: str = "averaged-drive") -> emsim.System:
 
 
 def systems_with_benchmark_drive() -> dict:
-    """Builders of every catalogue system plus the averaged benchmark drive, by name."""
+    """Builders of every catalogue system plus the averaged benchmark drives, by name."""
     out = {name: entry[0] for name, entry in CATALOGUE.items()}
     out["bench_averaged"] = build_benchmark_drive
+    # fan load and the plugin-style smooth Coulomb friction of benchmarks/emsim_side.py
+    out["bench_nonlinear"] = lambda: build_benchmark_drive("averaged-drive-nonlinear")
     return out
 
 

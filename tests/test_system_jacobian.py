@@ -2,7 +2,7 @@
 
 Reference: scipy.optimize.approx_fprime (forward differences) on the compiled ``system_rhs``,
 at perturbed states of catalogue systems (motor, battery, rigid lossy gear in both power-flow
-modes, compliant shafts, friction) and of the benchmark drive (averaged bridge, sampled PI).
+modes, compliant shafts, friction) and of the benchmark drives (averaged bridge, sampled PI, fan load, smooth Coulomb friction).
 """
 from __future__ import annotations
 
