@@ -23,6 +23,8 @@ array the generated code uses for port and signal buffers)::
     system_stages(ts, y, z, ys, p, m, d, w, f, fq, want_quad)
                                               # the three Radau stage evaluations at once (written
                                               #   once for all modules in emsim.solvers.abi)
+    system_rhs_quad(t, y, p, m, d, w, dy, dq) # system_rhs and system_quad_at_rhs at one point, one
+                                              #   call (the explicit method's stages; also in abi)
 
 ``y`` holds ``n_main`` main rows followed by ``n_quad`` quadrature rows; the
 quadrature rows never feed back into the main rows. The module also exports

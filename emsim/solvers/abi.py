@@ -19,7 +19,7 @@ _A2 = types.Array(types.float64, 2, "C")
 
 #: Order in which the callbacks are passed to ``radau_integrate``.
 ORDER = ("rhs", "events", "on_event", "next_time", "at_time", "start", "record", "jacobian", "stages",
-         "quad_at_rhs")
+         "rhs_quad")
 
 SIGNATURES = {
     "rhs": types.void(_f8, _A, _A, _I, _A, _A, _A),
@@ -35,9 +35,9 @@ SIGNATURES = {
     # f[s] = f(ts[s], y + z[s]) on the main rows and, if want_quad, the quadrature integrands
     # fq[s] at the same point (ys: scratch of y's length)
     "stages": types.void(_A, _A, _A2, _A, _A, _I, _A, _A, _A2, _A2, _i8),
-    # the quadrature integrands dq at (t, y) when w already holds system_rhs at that same point
-    # (the explicit method's stages: their right-hand side comes from a consistency solve)
-    "quad_at_rhs": types.void(_f8, _A, _A, _I, _A, _A, _A),
+    # system_rhs into dy and the quadrature integrands dq at the same (t, y), in one call (the
+    # explicit method's stages and consistency solves: one callback instead of two per stage)
+    "rhs_quad": types.void(_f8, _A, _A, _I, _A, _A, _A, _A),
 }
 
 
@@ -51,11 +51,11 @@ ARGS = {
     "record": "t, y, p, m, d, w, row",
     "jacobian": "t, y, p, m, d, w, jac",
     "stages": "ts, y, z, ys, p, m, d, w, f, fq, want_quad",
-    "quad_at_rhs": "t, y, p, m, d, w, dq",
+    "rhs_quad": "t, y, p, m, d, w, dy, dq",
 }
 
-# ``system_stages`` is the same for every module: written here once, in terms of the module's own
-# system_rhs and system_quad_at_rhs (system_quad without its own rhs evaluation)
+# ``system_stages`` and ``system_rhs_quad`` are the same for every module: written here once, in terms
+# of the module's own system_rhs and system_quad_at_rhs (system_quad without its own rhs evaluation)
 _STAGES_SOURCE = """
 @_abi_numba.njit(cache=True, error_model="numpy")
 def system_stages(ts, y, z, ys, p, m, d, w, f, fq, want_quad):
@@ -68,6 +68,12 @@ def system_stages(ts, y, z, ys, p, m, d, w, f, fq, want_quad):
         system_rhs(ts[s], ys, p, m, d, w, f[s])
         if want_quad != 0:
             system_quad_at_rhs(ts[s], ys, p, m, d, w, fq[s])
+
+
+@_abi_numba.njit(cache=True, error_model="numpy")
+def system_rhs_quad(t, y, p, m, d, w, dy, dq):
+    system_rhs(t, y, p, m, d, w, dy)
+    system_quad_at_rhs(t, y, p, m, d, w, dq)
 """
 
 

@@ -13,7 +13,7 @@ where noted)::
 
     status = radau_integrate(
         rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn,
-        jacobian_fn, stages_fn, quad_fn,
+        jacobian_fn, stages_fn, rhs_quad_fn,
                       # the problem's callbacks, abi.callbacks(problem.module), in abi.ORDER
         t_end,        # float: integrate up to and including this time
         y,            # float64[n_main + n_quad]   state, in/out

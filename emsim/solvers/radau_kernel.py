@@ -37,7 +37,7 @@ How this file is used
 ``radau_integrate`` takes the problem's system functions as its first ten
 arguments: C callbacks with the fixed signatures of :mod:`emsim.solvers.abi`
 (``rhs``, ``events``, ``on_event``, ``next_time``, ``at_time``, ``start``,
-``record``, ``jacobian``, ``stages``, ``quad_at_rhs``; their contract is in
+``record``, ``jacobian``, ``stages``, ``rhs_quad``; their contract is in
 ``emsim/assembly/problem.py`` and ``abi.py``).
 Because those argument types are signatures, not particular functions, numba
 compiles and caches this kernel once for every system; a new system compiles
@@ -387,18 +387,24 @@ def radau_error(rhs_fn, t, h, y, ynew, z, f0, mass, n, atol, rtol, lu_r, piv, p,
 
 
 @radau_njit(cache=True, inline="always")
-def radau_make_consistent(jacobian_fn, rhs_fn, t, y, p, m, d, w, n, alg, n_alg, atol, rtol, nominal,
-                          jac, lu_a, piv, f0, ftmp, dz, y_fail, tf, ti, stats):
+def radau_make_consistent(jacobian_fn, rhs_fn, rhs_quad_fn, want_quad, t, y, p, m, d, w, n, alg, n_alg, atol,
+                          rtol, nominal, jac, lu_a, piv, f0, fq, ftmp, dz, y_fail, tf, ti, stats):
     """Solve the algebraic rows for their states with the differential rows fixed.
 
     Newton iterations with the algebraic block of the stored Jacobian (the
     Jacobian is evaluated first if it is not valid, and once more if the
-    iteration stalls). Leaves ``f0 = f(t, y)`` at the final state. Returns 0,
-    -2 (no convergence) or -3 (non-finite right-hand side).
+    iteration stalls). Leaves ``f0 = f(t, y)`` at the final state and, if
+    ``want_quad``, the quadrature integrands there in ``fq`` (one callback
+    evaluates both). Returns 0, -2 (no convergence) or -3 (non-finite
+    right-hand side).
     """
     for attempt in range(2):
         for it in range(10):
-            rhs_fn(t, y, p, m, d, w, f0)
+            if want_quad:
+                rhs_quad_fn(t, y, p, m, d, w, f0, fq)
+                stats[radau_S_QUAD] += 1
+            else:
+                rhs_fn(t, y, p, m, d, w, f0)
             stats[radau_S_RHS] += 1
             bad = radau_dense.first_nonfinite(f0, n)
             if bad >= 0:
@@ -454,21 +460,11 @@ def radau_make_consistent(jacobian_fn, rhs_fn, t, y, p, m, d, w, n, alg, n_alg, 
     return radau_STATUS_NEWTON
 
 
-@radau_njit(cache=True, inline="always")
-def dopri_quad_here(quad_fn, rhs_fn, t, y, p, m, d, w, fq, ftmp, w_stale, stats):
-    """Quadrature integrands at (t, y) after a consistency solve there (``w_stale``: it ended on a Jacobian)."""
-    if w_stale:
-        rhs_fn(t, y, p, m, d, w, ftmp)
-        stats[radau_S_RHS] += 1
-    quad_fn(t, y, p, m, d, w, fq)
-    stats[radau_S_QUAD] += 1
-
-
 # not inlined: numba's inliner cannot inline this one into the loop (it already inlines the consistency
 # solve); one call per step costs nothing next to its seven right-hand sides. Like the loop, without
 # reference counting (its ~40 array arguments and row views all belong to the loop's caller)
 @radau_njit(cache=True, error_model="numpy", _nrt=False)
-def dopri_attempt(jacobian_fn, rhs_fn, quad_fn, t, h, y, ynew, p, m, d, w, mass, n, alg, n_alg, atol, rtol,
+def dopri_attempt(jacobian_fn, rhs_fn, rhs_quad_fn, t, h, y, ynew, p, m, d, w, mass, n, alg, n_alg, atol, rtol,
                   nominal, jac, lu_a, piv, f0, fq0, kst, kq, ys, ftmp, dz, err, sc, y_fail, tf, ti, stats):
     """One Dormand-Prince 5(4) step of size ``h`` from ``(t, y)`` into ``ynew``; returns (status, error norm).
 
@@ -513,8 +509,9 @@ def dopri_attempt(jacobian_fn, rhs_fn, quad_fn, t, h, y, ynew, p, m, d, w, mass,
         t_i = t + radau_DP_C[i] * h
         n_jac = stats[radau_S_JAC]
         n_rhs = stats[radau_S_RHS]
-        st = radau_make_consistent(jacobian_fn, rhs_fn, t_i, ys, p, m, d, w, n, alg, n_alg, atol, rtol, nominal,
-                                   jac, lu_a, piv, kst[i], ftmp, dz, y_fail, tf, ti, stats)
+        st = radau_make_consistent(jacobian_fn, rhs_fn, rhs_quad_fn, n_quad > 0, t_i, ys, p, m, d, w, n, alg,
+                                   n_alg, atol, rtol, nominal, jac, lu_a, piv, kst[i], kq[i], ftmp, dz, y_fail, tf,
+                                   ti, stats)
         if st != 0:
             return st, radau_np.inf
         jac_now = stats[radau_S_JAC] != n_jac
@@ -523,7 +520,6 @@ def dopri_attempt(jacobian_fn, rhs_fn, quad_fn, t, h, y, ynew, p, m, d, w, mass,
             # nonlinear. A fresh Jacobian for the next stage, at most one per step
             ti[radau_I_JAC] = 0
         if n_quad > 0:
-            dopri_quad_here(quad_fn, rhs_fn, t_i, ys, p, m, d, w, kq[i], ftmp, jac_now, stats)
             if not radau_dense.all_finite(kq[i], n_quad):
                 for j in range(n_tot):
                     y_fail[j] = ys[j]
@@ -835,7 +831,7 @@ def radau_borrow(typingctx, arr):
 
 @radau_njit(cache=True, error_model="numpy")
 def radau_integrate(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, jacobian_fn, stages_fn,
-                    quad_fn, t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
+                    rhs_quad_fn, t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
                     opt, iopt, buf, buf_t, log_t, log_comp, log_kind, log_index, comp_scratch,
                     tf, ti, jac, lu_r, lu_c, lu_a, piv, f0, g_old, qd, fq0, y_fail, stats, scratch):
     """Integrate from ``tf[F_T]`` towards ``t_end``; return a status code.
@@ -850,7 +846,7 @@ def radau_integrate(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, st
     zs, wts, fs, fqs, vec, small, bcs, evs, ev_hits, m_prevs, algs, ts3s, ksts, kqs = scratch
     b = radau_borrow
     return radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, jacobian_fn,
-                      stages_fn, quad_fn, t_end, b(y), b(p), b(m), b(d), b(w), b(mass), b(atol), b(nominal), b(event_dir), n_main,
+                      stages_fn, rhs_quad_fn, t_end, b(y), b(p), b(m), b(d), b(w), b(mass), b(atol), b(nominal), b(event_dir), n_main,
                       b(opt), b(iopt), b(buf), b(buf_t), b(log_t), b(log_comp), b(log_kind), b(log_index),
                       b(comp_scratch), b(tf), b(ti), b(jac), b(lu_r), b(lu_c), b(lu_a), b(piv), b(f0), b(g_old),
                       b(qd), b(fq0), b(y_fail), b(stats),
@@ -862,7 +858,7 @@ def radau_integrate(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, st
 # without the runtime: no reference counting at all in the loop (every array is the driver's; nothing allocates)
 @radau_njit(cache=True, error_model="numpy", _nrt=False)
 def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, jacobian_fn, stages_fn,
-               quad_fn, t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
+               rhs_quad_fn, t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
                opt, iopt, buf, buf_t, log_t, log_comp, log_kind, log_index, comp_scratch,
                tf, ti, jac, lu_r, lu_c, lu_a, piv, f0, g_old, qd, fq0, y_fail, stats,
                z, wt, f, fq, ys, ynew, yold, yint, ysave, sc, br, bc, ftmp, err, zm, dz,
@@ -915,13 +911,11 @@ def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_f
         tf[radau_F_TANCHOR] = -radau_np.inf
         tf[radau_F_ETA] = 1.0
         tf[radau_F_HACC] = 0.0
-        n_jac = stats[radau_S_JAC]
-        st = radau_make_consistent(jacobian_fn, rhs_fn, t, y, p, m, d, w, n, alg, n_alg, atol, rtol, nominal,
-                                   jac, lu_a, piv, f0, ftmp, dz, y_fail, tf, ti, stats)
+        st = radau_make_consistent(jacobian_fn, rhs_fn, rhs_quad_fn, explicit and n_quad > 0, t, y, p, m, d, w, n,
+                                   alg, n_alg, atol, rtol, nominal, jac, lu_a, piv, f0, fq0, ftmp, dz, y_fail, tf,
+                                   ti, stats)
         if st != 0:
             return st
-        if explicit and n_quad > 0:
-            dopri_quad_here(quad_fn, rhs_fn, t, y, p, m, d, w, fq0, ftmp, stats[radau_S_JAC] != n_jac, stats)
         if n_ev > 0:
             events_fn(t, y, p, m, d, w, g_old)
             stats[radau_S_EVENT_FN] += 1
@@ -1013,7 +1007,7 @@ def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_f
                     return radau_STATUS_NEWTON
                 return radau_STATUS_STEP_TOO_SMALL
             if explicit:
-                code, errn = dopri_attempt(jacobian_fn, rhs_fn, quad_fn, t, h, y, ynew, p, m, d, w, mass, n, alg,
+                code, errn = dopri_attempt(jacobian_fn, rhs_fn, rhs_quad_fn, t, h, y, ynew, p, m, d, w, mass, n, alg,
                                            n_alg, atol, rtol, nominal, jac, lu_a, piv, f0, fq0, kst, kq, ys, ftmp,
                                            dz, err, sc, y_fail, tf, ti, stats)
                 if code != 0:
@@ -1260,11 +1254,13 @@ def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_f
                 # the quadrature call evaluated the last stage, (t_s + h, y_s + z_3) = (t, y): f0 is known
                 for i in range(n):
                     f0[i] = f[2, i]
+            elif explicit and n_quad > 0:
+                rhs_quad_fn(t, y, p, m, d, w, f0, fq0)
+                stats[radau_S_RHS] += 1
+                stats[radau_S_QUAD] += 1
             else:
                 rhs_fn(t, y, p, m, d, w, f0)
                 stats[radau_S_RHS] += 1
-                if explicit and n_quad > 0:
-                    dopri_quad_here(quad_fn, rhs_fn, t, y, p, m, d, w, fq0, ftmp, False, stats)
             bad = radau_dense.first_nonfinite(f0, n)
             if bad >= 0:
                 for i in range(n_tot):
@@ -1330,14 +1326,12 @@ def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_f
                     ti[radau_I_EXT] = 0
                     break
         ti[radau_I_NLOG] = nlog
-        n_jac = stats[radau_S_JAC]
-        st = radau_make_consistent(jacobian_fn, rhs_fn, t, y, p, m, d, w, n, alg, n_alg, atol, rtol, nominal,
-                                   jac, lu_a, piv, f0, ftmp, dz, y_fail, tf, ti, stats)
+        st = radau_make_consistent(jacobian_fn, rhs_fn, rhs_quad_fn, explicit and n_quad > 0, t, y, p, m, d, w, n,
+                                   alg, n_alg, atol, rtol, nominal, jac, lu_a, piv, f0, fq0, ftmp, dz, y_fail, tf,
+                                   ti, stats)
         if st != 0:
             tf[radau_F_T] = t
             return st
-        if explicit and n_quad > 0:
-            dopri_quad_here(quad_fn, rhs_fn, t, y, p, m, d, w, fq0, ftmp, stats[radau_S_JAC] != n_jac, stats)
         if n_ev > 0:
             events_fn(t, y, p, m, d, w, g_old)
             stats[radau_S_EVENT_FN] += 1
