@@ -460,12 +460,12 @@ def radau_make_consistent(jacobian_fn, rhs_fn, rhs_quad_fn, want_quad, t, y, p, 
     return radau_STATUS_NEWTON
 
 
-# not inlined: numba's inliner cannot inline this one into the loop (it already inlines the consistency
-# solve); one call per step costs nothing next to its seven right-hand sides. Like the loop, without
-# reference counting (its ~40 array arguments and row views all belong to the loop's caller)
-@radau_njit(cache=True, error_model="numpy", _nrt=False)
-def dopri_attempt(jacobian_fn, rhs_fn, rhs_quad_fn, t, h, y, ynew, p, m, d, w, mass, n, alg, n_alg, atol, rtol,
-                  nominal, jac, lu_a, piv, f0, fq0, kst, kq, ys, ftmp, dz, err, sc, y_fail, tf, ti, stats):
+# inlined into the loop: a call passing its ~30 arrays (seven words each) cost ~0.3 us per step, a
+# fifth of a step on the averaged drive. At most 30 parameters: CPython compiles a longer call as
+# f(*args), which numba's inliner refuses; ys, ynew and sc therefore come as rows of ``vec``
+@radau_njit(cache=True, inline="always")
+def dopri_attempt(jacobian_fn, rhs_fn, rhs_quad_fn, t, h, y, p, m, d, w, alg, n_alg, atol, rtol, nominal,
+                  jac, lu_a, piv, f0, fq0, kst, kq, vec, ftmp, dz, err, y_fail, tf, ti, stats):
     """One Dormand-Prince 5(4) step of size ``h`` from ``(t, y)`` into ``ynew``; returns (status, error norm).
 
     Stage 0 is ``f0`` (and ``fq0``, the quadrature integrands) at the step start. At every
@@ -475,10 +475,16 @@ def dopri_attempt(jacobian_fn, rhs_fn, rhs_quad_fn, t, h, y, ynew, p, m, d, w, m
     are evaluated at the same consistent stage points and integrated with the same weights.
     Stage 6 is the new point: ``kst[6]``, ``kq[6]`` serve as the next step's stage 0.
     The error norm is the weighted RMS of the embedded 4th-order difference over the
-    differential rows. ``status`` is 0 or the consistency solve's failure code.
+    differential rows (``alg[n_alg:]``). The new point goes to ``vec[1]``, the error weights
+    to ``vec[5]`` (``vec[0]`` is stage scratch). ``status`` is 0 or the consistency solve's
+    failure code.
     """
+    n = f0.shape[0]
     n_tot = y.shape[0]
     n_quad = n_tot - n
+    ys = vec[0]
+    ynew = vec[1]
+    sc = vec[5]
     for j in range(n_tot):
         ys[j] = y[j]
     for j in range(n):
@@ -486,22 +492,21 @@ def dopri_attempt(jacobian_fn, rhs_fn, rhs_quad_fn, t, h, y, ynew, p, m, d, w, m
     for q in range(n_quad):
         kq[0, q] = fq0[q]
     for i in range(1, 7):
-        for j in range(n):
-            if mass[j] != 0.0:
-                acc = 0.0
-                for l in range(i):
-                    acc += radau_DP_A[i, l] * kst[l, j]
-                x_new = y[j] + h * acc
-                err[j] = x_new - ys[j]    # (err is free until the error estimate) the move from the last stage
-                ys[j] = x_new
+        for jd in range(n_alg, n):
+            j = alg[jd]
+            acc = 0.0
+            for l in range(i):
+                acc += radau_DP_A[i, l] * kst[l, j]
+            x_new = y[j] + h * acc
+            err[j] = x_new - ys[j]    # (err is free until the error estimate) the move from the last stage
+            ys[j] = x_new
         if n_alg > 0 and ti[radau_I_JAC] == 1 and ti[radau_I_LUA] == 1:
             # predict the algebraic rows along the move: J_zz dz = -J_zx dx (implicit function theorem),
             # so with linear constraints and a current Jacobian the solve below converges at once
             for k in range(n_alg):
                 acc = 0.0
-                for j in range(n):
-                    if mass[j] != 0.0:
-                        acc += jac[alg[k], j] * err[j]
+                for jd in range(n_alg, n):
+                    acc += jac[alg[k], alg[jd]] * err[alg[jd]]
                 dz[k] = acc
             radau_dense.lu_solve(lu_a, piv[2], dz, n_alg)
             for k in range(n_alg):
@@ -527,19 +532,19 @@ def dopri_attempt(jacobian_fn, rhs_fn, rhs_quad_fn, t, h, y, ynew, p, m, d, w, m
                 ti[radau_I_FAILINFO] = -1
                 return radau_STATUS_NONFINITE, radau_np.inf
     acc = 0.0
-    nd = 0
+    nd = n - n_alg
     for j in range(n):
         ynew[j] = ys[j]
         sc[j] = atol[j] + rtol * max(abs(y[j]), abs(ys[j]))
         err[j] = 0.0
-        if mass[j] != 0.0:
-            e = 0.0
-            for l in range(7):
-                e += radau_DP_E[l] * kst[l, j]
-            err[j] = h * e
-            q = err[j] / sc[j]
-            acc += q * q
-            nd += 1
+    for jd in range(n_alg, n):
+        j = alg[jd]
+        e = 0.0
+        for l in range(7):
+            e += radau_DP_E[l] * kst[l, j]
+        err[j] = h * e
+        q = err[j] / sc[j]
+        acc += q * q
     for q in range(n_quad):
         e = 0.0
         for l in range(6):
@@ -800,7 +805,7 @@ def radau_scratch(n_main, n_tot, n_events, n_modes):
             radau_np.zeros((5, e1)),        # g_new, gtmp, ev_root, g_st (2 rows)
             radau_np.zeros(e1, dtype=radau_np.bool_),       # ev_hit
             radau_np.zeros(max(n_modes, 1), dtype=radau_np.int64),  # m_prev
-            radau_np.zeros(n1, dtype=radau_np.int64),       # alg: algebraic row indices
+            radau_np.zeros(n1, dtype=radau_np.int64),       # alg: algebraic row indices, then differential ones
             radau_np.zeros(3),                              # ts3: stage times
             radau_np.zeros((7, n1)),                        # kst: explicit stage derivatives
             radau_np.zeros((7, max(n_tot - n_main, 1))))    # kq: explicit stage quadrature integrands
@@ -852,7 +857,8 @@ def radau_integrate(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, st
                       b(qd), b(fq0), b(y_fail), b(stats),
                       b(zs), b(wts), b(fs), b(fqs), b(vec[0]), b(vec[1]), b(vec[2]), b(vec[3]), b(vec[4]),
                       b(vec[5]), b(small[0]), b(bcs), b(small[1]), b(small[2]), b(small[3]), b(small[4]),
-                      b(evs[0]), b(evs[3:5]), b(evs[1]), b(ev_hits), b(evs[2]), b(m_prevs), b(algs), b(ts3s), b(ksts), b(kqs))
+                      b(evs[0]), b(evs[3:5]), b(evs[1]), b(ev_hits), b(evs[2]), b(m_prevs), b(algs), b(ts3s), b(ksts), b(kqs),
+                      b(vec))
 
 
 # without the runtime: no reference counting at all in the loop (every array is the driver's; nothing allocates)
@@ -862,7 +868,7 @@ def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_f
                opt, iopt, buf, buf_t, log_t, log_comp, log_kind, log_index, comp_scratch,
                tf, ti, jac, lu_r, lu_c, lu_a, piv, f0, g_old, qd, fq0, y_fail, stats,
                z, wt, f, fq, ys, ynew, yold, yint, ysave, sc, br, bc, ftmp, err, zm, dz,
-               g_new, g_st, gtmp, ev_hit, ev_root, m_prev, alg, ts3, kst, kq):
+               g_new, g_st, gtmp, ev_hit, ev_root, m_prev, alg, ts3, kst, kq, vec):
     """The step loop of :func:`radau_integrate` (all arrays borrowed views, scratch included)."""
     n = n_main
     n_tot = y.shape[0]
@@ -892,6 +898,10 @@ def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_f
     k = 0
     for i in range(n):
         if mass[i] == 0.0:
+            alg[k] = i
+            k += 1
+    for i in range(n):    # then the differential rows
+        if mass[i] != 0.0:
             alg[k] = i
             k += 1
 
@@ -1007,9 +1017,9 @@ def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_f
                     return radau_STATUS_NEWTON
                 return radau_STATUS_STEP_TOO_SMALL
             if explicit:
-                code, errn = dopri_attempt(jacobian_fn, rhs_fn, rhs_quad_fn, t, h, y, ynew, p, m, d, w, mass, n, alg,
-                                           n_alg, atol, rtol, nominal, jac, lu_a, piv, f0, fq0, kst, kq, ys, ftmp,
-                                           dz, err, sc, y_fail, tf, ti, stats)
+                code, errn = dopri_attempt(jacobian_fn, rhs_fn, rhs_quad_fn, t, h, y, p, m, d, w, alg, n_alg, atol,
+                                           rtol, nominal, jac, lu_a, piv, f0, fq0, kst, kq, vec, ftmp, dz, err,
+                                           y_fail, tf, ti, stats)
                 if code != 0:
                     # the algebraic rows could not be solved at a stage (or a value was not finite)
                     n_fail += 1
