@@ -44,7 +44,7 @@ where noted)::
         jac,          # float64[n_main, n_main]    Jacobian (persistent)
         lu_r,         # float64[n_main, n_main]    LU of (gamma/h) M - J (persistent)
         lu_c,         # complex128[n_main, n_main] LU of ((alpha - i beta)/h) M - J (persistent)
-        lu_a,         # float64[n_main, n_main]    LU of the algebraic block of J (persistent)
+        lu_a,         # float64[n_main, 2*n_main]  LU, inverse and J_zz^-1 J_zx of J's algebraic block (persistent)
         piv,          # int64[3, n_main]           pivots of the three factorisations
         f0,           # float64[n_main]            f(t, y) at the current state (persistent)
         g_old,        # float64[n_events]          event functions at the current state
@@ -330,7 +330,7 @@ class RadauRun:
         self.jac = np.zeros((n_main, n_main))
         self.lu_r = np.zeros((n_main, n_main))
         self.lu_c = np.zeros((n_main, n_main), dtype=np.complex128)
-        self.lu_a = np.zeros((n_main, n_main))
+        self.lu_a = np.zeros((n_main, 2 * n_main))   # see radau_algebraic_setup
         self.piv = np.zeros((3, n_main), dtype=np.int64)
         self.f0 = np.zeros(n_main)
         self.g_old = np.zeros(n_ev)
