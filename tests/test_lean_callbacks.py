@@ -58,6 +58,8 @@ def test_lean_and_runtime_callbacks_both_follow_the_closed_form_decay(monkeypatc
     with_runtime = _braked(ScratchDamper("brake", damping=C))
     # the built-in damper allocates nothing: its callbacks are lean; the allocating one fell back
     assert "cache=True, _nrt=False)(_abi_stages)" in Path(lean.module.__file__).read_text()
+    # the generated analytic Jacobian allocates nothing either (component partials in work-array views)
+    assert "cache=True, _nrt=False)(_abi_jacobian)" in Path(lean.module.__file__).read_text()
     assert "_nrt=False" not in Path(with_runtime.module.__file__).read_text()
     # the choice is remembered: assembling the allocating system again loads only the runtime module
     loads = []
