@@ -4,7 +4,7 @@ Both kernels run in one process, alternately, on the emsim benchmark drives; pri
 median of 7 wall times for 10 s simulated, the ratio new/base, and the solver statistics.
 The base kernel is read from git (``python benchmarks/kernel_ab.py [REV]``, default HEAD)
 into a temporary module, so no copy of the kernel lives in the repository. The method is
-Radau5 unless ``EMSIM_AB_METHOD=dopri5``; ``EMSIM_AB_VARIANTS`` (comma-separated) and
+``EMSIM_AB_METHOD`` (radau5, the default, or dopri5); ``EMSIM_AB_VARIANTS`` (comma-separated) and
 ``EMSIM_AB_RTOLS`` choose the drives and tolerances.
 """
 from __future__ import annotations
@@ -45,7 +45,10 @@ import drive_model as dm  # noqa: E402
 import emsim_side  # noqa: E402
 
 REPS = 7
-METHOD = comp.DormandPrince5 if os.environ.get("EMSIM_AB_METHOD") == "dopri5" else comp.Radau5
+_method = os.environ.get("EMSIM_AB_METHOD", "radau5")
+if _method not in emsim_side.SOLVERS:
+    raise SystemExit(f"kernel_ab.py: EMSIM_AB_METHOD must be one of {sorted(emsim_side.SOLVERS)}, got {_method!r}")
+METHOD = emsim_side.SOLVERS[_method]
 
 
 def run(prob, rtol, kernel):

@@ -17,6 +17,23 @@ def resolve_class(module: str, qualname: str):
     return obj
 
 
+def _borrowed(context, builder, sig, args, shape_of):
+    """Codegen of a C-ordered view of ``args[0]`` from element ``args[1]`` on: no meminfo, no parent.
+
+    ``shape_of(builder, args)`` gives the view's shape; the strides follow from it (C order).
+    """
+    src = context.make_array(sig.args[0])(context, builder, args[0])
+    out = context.make_array(sig.return_type)(context, builder)
+    itemsize = context.get_constant(types.intp, context.get_abi_sizeof(context.get_data_type(sig.args[0].dtype)))
+    shape = shape_of(builder, args)
+    strides = [itemsize]
+    for extent in reversed(shape[1:]):
+        strides.insert(0, builder.mul(extent, strides[0]))
+    context.populate_array(out, data=builder.gep(src.data, [args[1]]), shape=shape, strides=strides,
+                           itemsize=itemsize, meminfo=None, parent=None)
+    return out._getvalue()
+
+
 @intrinsic
 def view(typingctx, arr, start, stop):
     """``arr[start:stop]`` of a contiguous 1-D array, built without clamping or reference counting.
@@ -30,16 +47,10 @@ def view(typingctx, arr, start, stop):
     """
     if not (isinstance(arr, types.Array) and arr.ndim == 1 and arr.layout == "C"):
         return None
-    result = types.Array(arr.dtype, 1, "C")
-    sig = result(arr, types.intp, types.intp)
+    sig = types.Array(arr.dtype, 1, "C")(arr, types.intp, types.intp)
 
     def codegen(context, builder, sig, args):
-        src = context.make_array(sig.args[0])(context, builder, args[0])
-        out = context.make_array(sig.return_type)(context, builder)
-        itemsize = context.get_constant(types.intp, context.get_abi_sizeof(context.get_data_type(arr.dtype)))
-        context.populate_array(out, data=builder.gep(src.data, [args[1]]), shape=[builder.sub(args[2], args[1])],
-                               strides=[itemsize], itemsize=itemsize, meminfo=None, parent=None)
-        return out._getvalue()
+        return _borrowed(context, builder, sig, args, lambda b, a: [b.sub(a[2], a[1])])
 
     return sig, codegen
 
@@ -55,16 +66,9 @@ def view2(typingctx, arr, start, rows, cols):
     """
     if not (isinstance(arr, types.Array) and arr.ndim == 1 and arr.layout == "C"):
         return None
-    result = types.Array(arr.dtype, 2, "C")
-    sig = result(arr, types.intp, types.intp, types.intp)
+    sig = types.Array(arr.dtype, 2, "C")(arr, types.intp, types.intp, types.intp)
 
     def codegen(context, builder, sig, args):
-        src = context.make_array(sig.args[0])(context, builder, args[0])
-        out = context.make_array(sig.return_type)(context, builder)
-        itemsize = context.get_constant(types.intp, context.get_abi_sizeof(context.get_data_type(arr.dtype)))
-        context.populate_array(out, data=builder.gep(src.data, [args[1]]), shape=[args[2], args[3]],
-                               strides=[builder.mul(args[3], itemsize), itemsize], itemsize=itemsize,
-                               meminfo=None, parent=None)
-        return out._getvalue()
+        return _borrowed(context, builder, sig, args, lambda b, a: [a[2], a[3]])
 
     return sig, codegen
