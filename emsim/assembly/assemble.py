@@ -47,7 +47,7 @@ def assemble(system: System, *, t0: float = 0.0) -> Problem:
         n_events=lay.n_events, n_record=len(names), event_direction=lay.event_direction,
         nominal=lay.nominal.copy(), state_names=lay.state_names, row_owner=lay.row_owner,
         event_owner=lay.event_owner, component_names=[c.name for c in st.components],
-        record_names=names, record_units=units, description=describe(st))
+        record_names=names, record_units=units, description=describe(st), fresh_slot=lay.work["FRESH"])
     prob.structure = st
     prob.layout = lay
     _first_evaluation(prob, st)

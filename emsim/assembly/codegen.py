@@ -186,7 +186,8 @@ def generate(st: Structure, lay: Layout) -> tuple[str, list[str], list[str], str
 
     n_main = lay.n_main
     # every function that needs the ports' through variables evaluates the rhs first (measured: a
-    # stamp of the inputs to skip repeated evaluations cost more in every rhs call than it saved)
+    # stamp of the inputs to skip repeated evaluations cost more in every rhs call than it saved),
+    # except at_time and record when the integrator's flag says w is current (abi.py)
     eval_scratch = f"system_rhs(t, y, p, m, d, w, view(w, {W['DX']}, {W['DX'] + n_main}))"
     lossy = [k for k, c in enumerate(st.couplings) if c.efficiency is not None]
 
@@ -302,12 +303,16 @@ def generate(st: Structure, lay: Layout) -> tuple[str, list[str], list[str], str
     src(_JIT)
     src("def system_at_time(t, y, p, m, d, w, log):")
     src("n = 0", 1)
+    # the integrator's flag (abi.py): w holds the rhs here already; a component's update then changes d
+    src(f"fresh = w[{W['FRESH']}] == 1.0", 1)
     # instants closer than round-off (a sample and a profile corner computed two ways) are one instant
     src("due = t + 1e-12 * max(1.0, abs(t))", 1)
     for ci in timed:
         src(f"if d[{lay.comp[ci].slot}] <= due:", 1)
-        src(eval_scratch, 2)
+        src("if not fresh:", 2)
+        src(eval_scratch, 3)
         src(call(ci, "at_time"), 2)
+        src("fresh = False", 2)
         advance_slot(ci, 2)
         src(f"log[n] = {ci}", 2)
         src("n += 1", 2)
@@ -351,7 +356,8 @@ def generate(st: Structure, lay: Layout) -> tuple[str, list[str], list[str], str
     units += ["J", "J", "J"]
     src(_JIT)
     src("def system_record(t, y, p, m, d, w, row):")
-    src(eval_scratch, 1)
+    src(f"if w[{W['FRESH']}] != 1.0:", 1)
+    src(eval_scratch, 2)
     for ci, comp in enumerate(comps):
         if comp.outputs:
             src(call(ci, "monitor", extra=sl("w", lay.comp[ci].out, f"{W['OUT']}+")), 1)

@@ -141,7 +141,8 @@ def lay_out(st: Structure) -> Layout:
         y0=np.array(y0, dtype=float))
     # work-array regions
     n_ports = port_i
-    regions = [("PA", n_ports), ("PF", n_ports), ("S", si), ("U", ui), ("OUT", oi), ("DX", n_main),
+    # FRESH: 1.0 while the integrator vouches that w holds system_rhs at the call's inputs (abi.py)
+    regions = [("FRESH", 1), ("PA", n_ports), ("PF", n_ports), ("S", si), ("U", ui), ("OUT", oi), ("DX", n_main),
                ("SC", len(st.nodes)), ("ACC", len(st.groups)), ("GX", max(1, len(st.couplings))),
                # one component's jacobian matrices at a time: (states + ports) rows, as many columns
                ("JS", max([(s.x[1] - s.x[0] + s.ports[1] - s.ports[0]) ** 2 for s in slots] + [1]))]

@@ -81,6 +81,9 @@ class Problem:
         Component index -> name (indices returned by ``system_on_event``/``system_at_time``).
     record_names, record_units : list of str
         Names and SI units of the columns ``system_record`` fills.
+    fresh_slot : int
+        Index in ``w`` of the work array's currency flag (see :mod:`emsim.solvers.abi`), or -1
+        if the module's functions take no notice of one.
     """
 
     module: ModuleType
@@ -104,3 +107,4 @@ class Problem:
     record_names: list = field(default_factory=list)
     record_units: list = field(default_factory=list)
     description: dict = field(default_factory=dict)
+    fresh_slot: int = -1

@@ -6,6 +6,12 @@ signatures below. The integrator takes those callbacks as first-class function
 arguments, so it is compiled and cached ONCE for every system (its argument
 types are these signatures, not the particular functions), while each new
 system structure compiles only its own small functions.
+
+The work array's currency flag: ``w[problem.fresh_slot]`` is 0.0 except while the
+integrator calls ``at_time`` or ``record`` at exactly the inputs (t, y, m, d) of the
+last function that evaluated the system's rhs into ``w``; it then sets the flag to 1.0
+for that call only, and those two skip their own rhs evaluation. A module whose
+problem has ``fresh_slot = -1`` never sees the flag.
 """
 from __future__ import annotations
 

@@ -29,10 +29,11 @@ where noted)::
         opt,          # float64[8]: rtol, event_tol, max_step, out_t0, out_dt,
                       #             fixed step (0 = adaptive), h0 (0 = automatic),
                       #             Newton stopping tolerance (0 = automatic)
-        iopt,         # int64[5]:  max_events_at_instant, max_steps (0 = no limit),
+        iopt,         # int64[6]:  max_events_at_instant, max_steps (0 = no limit),
                       #            call system_start on the first call (1) or not (0),
                       #            check event functions at the stage points too (1) or not (0),
-                      #            method: 0 Radau IIA, 1 Dormand-Prince 5(4)
+                      #            method: 0 Radau IIA, 1 Dormand-Prince 5(4),
+                      #            index in w of the currency flag (-1 none; see abi.py)
         buf,          # float64[rows, n_record]    output rows, filled from ti[1]
         buf_t,        # float64[rows]              their times
         log_t, log_comp, log_kind, log_index,   # event log: time, component, kind (1 time,
@@ -310,8 +311,11 @@ class RadauRun:
                              t0 if out_t0 is None else float(out_t0), float(out_dt),
                              solver.fixed_step or 0.0, solver.h0 or 0.0, solver.newton_tol or 0.0])
         call_start = 0 if getattr(problem, "start_applied", True) else 1
+        fresh_slot = int(getattr(problem, "fresh_slot", -1))
+        _check(-1 <= fresh_slot < max(int(problem.n_work), 1), problem,
+               f"fresh_slot {fresh_slot} lies outside the work array (length {problem.n_work}; -1 for none)", who=who)
         self.iopt = np.array([solver.max_events_at_instant, solver.max_steps, call_start,
-                              int(solver.event_stage_checks), solver.method_code], dtype=np.int64)
+                              int(solver.event_stage_checks), solver.method_code, fresh_slot], dtype=np.int64)
         n_rec = int(problem.n_record)
         # uninitialised: the kernel writes every row it hands out (zeroing a few MB per run was a
         # measurable part of a short run's cost)

@@ -173,6 +173,7 @@ radau_F_ETA = 9        # Newton contraction memory
 radau_F_TFAIL = 10     # time of a failure
 radau_F_HFAIL = 11     # step size at a failure
 radau_F_HPOST = 12     # step size the error of the last first-step-after-a-time-event asked for (0: none yet)
+radau_F_TW = 13        # time of the consistent evaluation that ti[I_WMARK] vouches for
 radau_NF = 16
 
 # Persistent integer memory ``ti``.
@@ -190,6 +191,7 @@ radau_I_NINST = 10     # events in the current cluster (chattering)
 radau_I_FAILINFO = 11  # row / event index related to a failure (-1 none)
 radau_I_REJ = 12       # the current step was rejected at least once
 radau_I_POSTEV = 13    # the next step is the first after a time event
+radau_I_WMARK = 14     # radau_w_mark when the last consistency solve left w at its point (0: it did not)
 radau_NI = 16
 
 # Statistics ``stats`` (int64, persistent).
@@ -225,10 +227,11 @@ def radau_row_time(k, out_t0, out_dt):
 
 @radau_njit(cache=True, inline="always")
 def radau_jacobian(jacobian_fn, rhs_fn, t, y, p, m, d, w, f0, nominal, n, jac, ftmp, stats):
-    """Jacobian of the main rows at (t, y): the system's analytic one when it has it, else forward differences."""
+    """Jacobian of the main rows at (t, y): the system's analytic one when it has it (returns 1), else
+    forward differences (returns 0)."""
     stats[radau_S_JAC] += 1
     if jacobian_fn(t, y, p, m, d, w, jac) == 1:
-        return
+        return 1
     sq = radau_math.sqrt(radau_EPS)
     for j in range(n):
         yj = y[j]
@@ -243,6 +246,27 @@ def radau_jacobian(jacobian_fn, rhs_fn, t, y, p, m, d, w, f0, nominal, n, jac, f
         for i in range(n):
             jac[i, j] = (ftmp[i] - f0[i]) * inv
     stats[radau_S_RHS] += n
+    return 0
+
+
+@radau_njit(cache=True, inline="always")
+def radau_w_mark(stats, ti):
+    """A count that moves whenever a callback may have written the work array.
+
+    Every callback that evaluates the system into ``w`` bumps one of these counters
+    (rhs and stage evaluations, Jacobians, event functions, event resets, time events,
+    output rows), so an unchanged mark proves ``w`` still holds the evaluation it was
+    taken after.
+    """
+    return (stats[radau_S_RHS] + stats[radau_S_JAC] + stats[radau_S_EVENT_FN] + stats[radau_S_STATE_EVENTS]
+            + stats[radau_S_TIME_EVENTS] + ti[radau_I_KOUT] + 1)
+
+
+@radau_njit(cache=True, inline="always")
+def radau_w_fresh(fslot, t, stats, ti, tf):
+    """True when ``w`` holds the system evaluated at the current (t, y, m, d): the last consistency
+    solve's point, with no callback since (the caller's y is that point, see the call sites)."""
+    return fslot >= 0 and ti[radau_I_WMARK] == radau_w_mark(stats, ti) and tf[radau_F_TW] == t
 
 
 @radau_njit(cache=True, inline="always")
@@ -433,6 +457,7 @@ def radau_make_consistent(jacobian_fn, rhs_fn, rhs_quad_fn, want_quad, t, y, p, 
     """
     for attempt in range(2):
         for it in range(10):
+            fresh = True    # w holds the evaluation at (t, y) just below
             if want_quad:
                 rhs_quad_fn(t, y, p, m, d, w, f0, fq)
                 stats[radau_S_QUAD] += 1
@@ -447,9 +472,12 @@ def radau_make_consistent(jacobian_fn, rhs_fn, rhs_quad_fn, want_quad, t, y, p, 
                 ti[radau_I_FAILINFO] = bad
                 return radau_STATUS_NONFINITE
             if n_alg == 0:
+                ti[radau_I_WMARK] = radau_w_mark(stats, ti)
+                tf[radau_F_TW] = t
                 return 0
             if ti[radau_I_JAC] == 0:
-                radau_jacobian(jacobian_fn, rhs_fn, t, y, p, m, d, w, f0, nominal, n, jac, ftmp, stats)
+                # the analytic Jacobian evaluates the rhs at this point too; differences do not
+                fresh = radau_jacobian(jacobian_fn, rhs_fn, t, y, p, m, d, w, f0, nominal, n, jac, ftmp, stats) == 1
                 ti[radau_I_JAC] = 1
                 ti[radau_I_JACNOW] = 1
                 ti[radau_I_LU] = 0
@@ -480,6 +508,8 @@ def radau_make_consistent(jacobian_fn, rhs_fn, rhs_quad_fn, want_quad, t, y, p, 
                     iworst = a
             ti[radau_I_FAILINFO] = iworst
             if radau_math.sqrt(acc / n_alg) <= 1e-3:
+                ti[radau_I_WMARK] = radau_w_mark(stats, ti) if fresh else 0
+                tf[radau_F_TW] = t
                 return 0
             for i in range(n_alg):
                 y[alg[i]] -= dz[i]
@@ -670,9 +700,14 @@ def radau_interp(tq, t_s, h_s, y_s, qd, yint):
 
 
 @radau_njit(cache=True, inline="always")
-def radau_emit_at(record_fn, t, y, p, m, d, w, out_t0, out_dt, t_lim, buf, buf_t, ti):
-    """Rows with row time <= t_lim recorded from the current state; stops when buf is full."""
+def radau_emit_at(record_fn, t, y, p, m, d, w, out_t0, out_dt, t_lim, buf, buf_t, ti, fslot, fresh):
+    """Rows with row time <= t_lim recorded from the current state; stops when buf is full.
+
+    ``fresh``: w holds the system at this state, so the rows reuse it (flag ``w[fslot]``).
+    """
     cap = buf.shape[0]
+    if fresh:
+        w[fslot] = 1.0
     k = ti[radau_I_KOUT]
     nr = ti[radau_I_NROWS]
     while nr < cap:
@@ -683,6 +718,8 @@ def radau_emit_at(record_fn, t, y, p, m, d, w, out_t0, out_dt, t_lim, buf, buf_t
         buf_t[nr] = tk
         nr += 1
         k += 1
+    if fresh:
+        w[fslot] = 0.0
     ti[radau_I_KOUT] = k
     ti[radau_I_NROWS] = nr
 
@@ -916,6 +953,7 @@ def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_f
     max_steps = iopt[1]
     stage_checks = iopt[3] != 0
     explicit = iopt[4] == 1    # Dormand-Prince 5(4) instead of Radau IIA
+    fslot = iopt[5]            # index of the work array's currency flag, -1 none (abi.py)
     fnewt = opt[7] if opt[7] > 0.0 else max(10.0 * radau_EPS / rtol, min(0.03, radau_math.sqrt(rtol)))
     maxit = 30 if fixed else radau_MAXIT
 
@@ -967,7 +1005,8 @@ def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_f
     while True:
         snap = 64.0 * radau_EPS * max(1.0, abs(t))
         # ---- output rows due at the current instant (state after any events) ----
-        radau_emit_at(record_fn, t, y, p, m, d, w, out_t0, out_dt, t + snap, buf, buf_t, ti)
+        radau_emit_at(record_fn, t, y, p, m, d, w, out_t0, out_dt, t + snap, buf, buf_t, ti, fslot,
+                      radau_w_fresh(fslot, t, stats, ti, tf))
         if radau_row_time(ti[radau_I_KOUT], out_t0, out_dt) <= t + snap:
             tf[radau_F_T] = t
             return radau_STATUS_ROWS_FULL
@@ -1346,7 +1385,12 @@ def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_f
                 m_prev[i] = m[i]
             for i in range(n_tot):
                 ysave[i] = y[i]
+            fresh = radau_w_fresh(fslot, t, stats, ti, tf)    # typically: the step's last stage landed here
+            if fresh:
+                w[fslot] = 1.0
             cnt = at_time_fn(t, y, p, m, d, w, comp_scratch)
+            if fresh:
+                w[fslot] = 0.0
             for i in range(cnt):
                 log_t[nlog] = t
                 log_comp[nlog] = comp_scratch[i]
