@@ -5,10 +5,12 @@ median of 7 wall times for 10 s simulated, the ratio new/base, and the solver st
 The base kernel is read from git (``python benchmarks/kernel_ab.py [REV]``, default HEAD)
 into a temporary module, so no copy of the kernel lives in the repository. The method is
 ``EMSIM_AB_METHOD`` (radau5, the default, or dopri5); ``EMSIM_AB_VARIANTS`` (comma-separated) and
-``EMSIM_AB_RTOLS`` choose the drives and tolerances.
+``EMSIM_AB_RTOLS`` choose the drives and tolerances. A base kernel from before a callback was
+added to ``abi.ORDER`` (new ones are appended) is called without the callbacks it does not know.
 """
 from __future__ import annotations
 
+import inspect
 import os
 import statistics
 import sys
@@ -19,6 +21,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 
 import emsim  # noqa: E402
 import emsim.solvers.compiled as comp  # noqa: E402
+from emsim.solvers import abi  # noqa: E402
 from emsim.solvers import radau_kernel as new_k  # noqa: E402
 import importlib.util  # noqa: E402
 import subprocess  # noqa: E402
@@ -51,13 +54,27 @@ if _method not in emsim_side.SOLVERS:
 METHOD = emsim_side.SOLVERS[_method]
 
 
+def _drop_new_callbacks(fn, n_known):
+    """``fn`` for a kernel that takes the first ``n_known`` callbacks of abi.ORDER only (new ones are appended)."""
+    n_all = len(abi.ORDER)
+    return lambda *args: fn(*args[:n_known], *args[n_all:])
+
+
 def run(prob, rtol, kernel):
-    comp.radau_integrate = kernel.radau_integrate
+    n_known = sum(name.endswith("_fn") for name in inspect.signature(kernel.radau_integrate.py_func).parameters)
     comp.radau_scratch = kernel.radau_scratch
     # compiled._integrate calls the first kernel's compiled entry point directly once it has one:
     # point it at this kernel's (or clear it, so the first call compiles and dispatches)
     overloads = kernel.radau_integrate.overloads
-    comp._kernel_entry = next(iter(overloads.values())).entry_point if len(overloads) == 1 else None
+    entry = next(iter(overloads.values())).entry_point if len(overloads) == 1 else None
+    if n_known < len(abi.ORDER):
+        wrapped = _drop_new_callbacks(kernel.radau_integrate, n_known)
+        wrapped.overloads = {}    # so compiled._integrate never keeps the raw entry point itself
+        comp.radau_integrate = wrapped
+        entry = None if entry is None else _drop_new_callbacks(entry, n_known)
+    else:
+        comp.radau_integrate = kernel.radau_integrate
+    comp._kernel_entry = entry
     solver = METHOD(rtol=rtol, batch_rows=16384)
     t0 = time.perf_counter()
     res = emsim.simulate(prob, dm.T_END, out_dt=dm.TS, solver=solver)

@@ -25,7 +25,7 @@ _A2 = types.Array(types.float64, 2, "C")
 
 #: Order in which the callbacks are passed to ``radau_integrate``.
 ORDER = ("rhs", "events", "on_event", "next_time", "at_time", "start", "record", "jacobian", "stages",
-         "rhs_quad")
+         "rhs_quad", "explicit_stages")
 
 SIGNATURES = {
     "rhs": types.void(_f8, _A, _A, _I, _A, _A, _A),
@@ -44,6 +44,9 @@ SIGNATURES = {
     # system_rhs into dy and the quadrature integrands dq at the same (t, y), in one call (the
     # explicit method's stages and consistency solves: one callback instead of two per stage)
     "rhs_quad": types.void(_f8, _A, _A, _I, _A, _A, _A, _A),
+    # stages 1..6 of one Dormand-Prince step in one call, each algebraic row predicted along the
+    # stage move and checked (see system_explicit_stages); returns the first stage it did not finish
+    "explicit_stages": types.int64(_f8, _f8, _f8, _A, _A, _I, _A, _A, _A2, _A2, _A, _A, _I, _A2, _A, _i8, _i8),
 }
 
 
@@ -58,6 +61,7 @@ ARGS = {
     "jacobian": "t, y, p, m, d, w, jac",
     "stages": "ts, y, z, ys, p, m, d, w, f, fq, want_quad",
     "rhs_quad": "t, y, p, m, d, w, dy, dq",
+    "explicit_stages": "t, h, rtol, y, p, m, d, w, kst, kq, ys, err, alg, lu_a, atol, n_alg, want_quad",
 }
 
 # ``system_stages`` and ``system_rhs_quad`` are the same for every module: written here once, in terms
@@ -80,6 +84,56 @@ def system_stages(ts, y, z, ys, p, m, d, w, f, fq, want_quad):
 def system_rhs_quad(t, y, p, m, d, w, dy, dq):
     system_rhs(t, y, p, m, d, w, dy)
     system_quad_at_rhs(t, y, p, m, d, w, dq)
+
+
+@_abi_numba.njit(cache=True, error_model="numpy")
+def system_explicit_stages(t, h, rtol, y, p, m, d, w, kst, kq, ys, err, alg, lu_a, atol, n_alg, want_quad):
+    # Stages 1..6 of a Dormand-Prince 5(4) step (kst[0], kq[0] and ys = y are the caller's), the
+    # arithmetic of emsim.solvers.radau_kernel.dopri_attempt operation for operation, in one call
+    # instead of six. Each stage's algebraic rows are predicted with lu_a (radau_algebraic_setup)
+    # and the stage counts as done when one correction would be below 1e-3 of the tolerance.
+    # Returns 7, or the first stage i not done: its point is in ys, evaluated into kst[i], and the
+    # caller goes on from there with its own consistency solve.
+    n = kst.shape[1]
+    n_quad = y.shape[0] - n
+    for i in range(1, 7):
+        for jd in range(n_alg, n):
+            j = alg[jd]
+            acc = 0.0
+            for l in range(i):
+                acc += _abi_DP_A[i, l] * kst[l, j]
+            x_new = y[j] + h * acc
+            err[j] = x_new - ys[j]
+            ys[j] = x_new
+        for k in range(n_alg):
+            acc = 0.0
+            for jd in range(n - n_alg):
+                acc += lu_a[k, n + n_alg + jd] * err[alg[n_alg + jd]]
+            ys[alg[k]] -= acc
+        t_i = t + _abi_DP_C[i] * h
+        if want_quad != 0:
+            system_rhs_quad(t_i, ys, p, m, d, w, kst[i], kq[i])
+        else:
+            system_rhs(t_i, ys, p, m, d, w, kst[i])
+        for j in range(n):
+            if not _abi_math.isfinite(kst[i, j]):
+                return i
+        if n_alg > 0:
+            acc = 0.0
+            for k in range(n_alg):
+                c = 0.0
+                for l in range(n_alg):
+                    c += lu_a[k, n + l] * kst[i, alg[l]]
+                a = alg[k]
+                q = c / (atol[a] + rtol * abs(ys[a]))
+                acc += q * q
+            if not _abi_math.sqrt(acc / n_alg) <= 1e-3:
+                return i
+        if want_quad != 0:
+            for q in range(n_quad):
+                if not _abi_math.isfinite(kq[i, q]):
+                    return i
+    return 7
 """
 
 
@@ -99,7 +153,9 @@ def export_source(lean: bool = True) -> str:
     then loads the module again with ``lean=False``.
     """
     lines = ["", "from emsim.solvers.abi import SIGNATURES as _abi_signatures",
-             "import numba as _abi_numba", _STAGES_SOURCE]
+             "import math as _abi_math", "import numba as _abi_numba",
+             "from emsim.solvers.radau_kernel import radau_DP_A as _abi_DP_A, radau_DP_C as _abi_DP_C",
+             _STAGES_SOURCE]
     for name, args in ARGS.items():
         flags = ", _nrt=False" if lean and name not in _WITH_RUNTIME else ""
         # a thin Python-level wrapper: numba's cache needs a plain function, not a dispatcher

@@ -13,7 +13,7 @@ where noted)::
 
     status = radau_integrate(
         rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn,
-        jacobian_fn, stages_fn, rhs_quad_fn,
+        jacobian_fn, stages_fn, rhs_quad_fn, explicit_stages_fn,
                       # the problem's callbacks, abi.callbacks(problem.module), in abi.ORDER
         t_end,        # float: integrate up to and including this time
         y,            # float64[n_main + n_quad]   state, in/out
@@ -29,11 +29,12 @@ where noted)::
         opt,          # float64[8]: rtol, event_tol, max_step, out_t0, out_dt,
                       #             fixed step (0 = adaptive), h0 (0 = automatic),
                       #             Newton stopping tolerance (0 = automatic)
-        iopt,         # int64[6]:  max_events_at_instant, max_steps (0 = no limit),
+        iopt,         # int64[7]:  max_events_at_instant, max_steps (0 = no limit),
                       #            call system_start on the first call (1) or not (0),
                       #            check event functions at the stage points too (1) or not (0),
                       #            method: 0 Radau IIA, 1 Dormand-Prince 5(4),
-                      #            index in w of the currency flag (-1 none; see abi.py)
+                      #            index in w of the currency flag (-1 none; see abi.py),
+                      #            explicit stages in one callback (1) or one per stage (0)
         buf,          # float64[rows, n_record]    output rows, filled from ti[1]
         buf_t,        # float64[rows]              their times
         log_t, log_comp, log_kind, log_index,   # event log: time, component, kind (1 time,
@@ -134,6 +135,9 @@ class Radau5(Solver):
 
     name = "radau5"
     method_code = 0   # iopt[4] of the kernel
+    #: Dormand-Prince only: stages 1..6 of a step through the module's one ``explicit_stages``
+    #: callback (True) or one callback per stage (False: same results, kept for A/B measurements)
+    one_call_stages = True
 
     def __init__(self, *, rtol=1e-6, atol_scale=None, h0=None, max_step=math.inf, fixed_step=None,
                  batch_rows=4096, event_log_size=16384, max_events_at_instant=50, event_tol=1e-12,
@@ -315,7 +319,8 @@ class RadauRun:
         _check(-1 <= fresh_slot < max(int(problem.n_work), 1), problem,
                f"fresh_slot {fresh_slot} lies outside the work array (length {problem.n_work}; -1 for none)", who=who)
         self.iopt = np.array([solver.max_events_at_instant, solver.max_steps, call_start,
-                              int(solver.event_stage_checks), solver.method_code, fresh_slot], dtype=np.int64)
+                              int(solver.event_stage_checks), solver.method_code, fresh_slot,
+                              int(solver.one_call_stages)], dtype=np.int64)
         n_rec = int(problem.n_record)
         # uninitialised: the kernel writes every row it hands out (zeroing a few MB per run was a
         # measurable part of a short run's cost)

@@ -444,26 +444,30 @@ def radau_algebraic_setup(jac, lu_a, piv, alg, n_alg, n, tmp):
 
 
 @radau_njit(cache=True, inline="always")
-def radau_make_consistent(jacobian_fn, rhs_fn, rhs_quad_fn, want_quad, t, y, p, m, d, w, n, alg, n_alg, atol,
-                          rtol, nominal, jac, lu_a, piv, f0, fq, ftmp, dz, y_fail, tf, ti, stats):
+def radau_make_consistent(jacobian_fn, rhs_fn, rhs_quad_fn, want_quad, evaluated, t, y, p, m, d, w, n, alg, n_alg,
+                          atol, rtol, nominal, jac, lu_a, piv, f0, fq, ftmp, dz, y_fail, tf, ti, stats):
     """Solve the algebraic rows for their states with the differential rows fixed.
 
     Newton iterations with the algebraic block of the stored Jacobian (the
     Jacobian is evaluated first if it is not valid, and once more if the
     iteration stalls). Leaves ``f0 = f(t, y)`` at the final state and, if
     ``want_quad``, the quadrature integrands there in ``fq`` (one callback
-    evaluates both). Returns 0, -2 (no convergence) or -3 (non-finite
-    right-hand side).
+    evaluates both). ``evaluated``: ``f0`` (and ``fq``) already hold f at (t, y), and ``w``
+    that evaluation, so the first iteration starts from them. Returns 0, -2 (no convergence)
+    or -3 (non-finite right-hand side).
     """
     for attempt in range(2):
         for it in range(10):
             fresh = True    # w holds the evaluation at (t, y) just below
-            if want_quad:
+            if evaluated and attempt == 0 and it == 0:
+                pass
+            elif want_quad:
                 rhs_quad_fn(t, y, p, m, d, w, f0, fq)
                 stats[radau_S_QUAD] += 1
+                stats[radau_S_RHS] += 1
             else:
                 rhs_fn(t, y, p, m, d, w, f0)
-            stats[radau_S_RHS] += 1
+                stats[radau_S_RHS] += 1
             bad = radau_dense.first_nonfinite(f0, n)
             if bad >= 0:
                 for i in range(y.shape[0]):
@@ -525,8 +529,8 @@ def radau_make_consistent(jacobian_fn, rhs_fn, rhs_quad_fn, want_quad, t, y, p, 
 # fifth of a step on the averaged drive. At most 30 parameters: CPython compiles a longer call as
 # f(*args), which numba's inliner refuses; ys, ynew and sc therefore come as rows of ``vec``
 @radau_njit(cache=True, inline="always")
-def dopri_attempt(jacobian_fn, rhs_fn, rhs_quad_fn, t, h, y, p, m, d, w, alg, n_alg, atol, rtol, nominal,
-                  jac, lu_a, piv, f0, fq0, kst, kq, vec, ftmp, dz, err, y_fail, tf, ti, stats):
+def dopri_attempt(jacobian_fn, rhs_fn, rhs_quad_fn, explicit_stages_fn, one_call, t, h, y, p, m, d, w, alg, n_alg,
+                  atol, rtol, nominal, jac, lu_a, piv, f0, fq0, kst, kq, vec, small, y_fail, tf, ti, stats):
     """One Dormand-Prince 5(4) step of size ``h`` from ``(t, y)`` into ``ynew``; returns (status, error norm).
 
     Stage 0 is ``f0`` (and ``fq0``, the quadrature integrands) at the step start. At every
@@ -537,8 +541,13 @@ def dopri_attempt(jacobian_fn, rhs_fn, rhs_quad_fn, t, h, y, p, m, d, w, alg, n_
     Stage 6 is the new point: ``kst[6]``, ``kq[6]`` serve as the next step's stage 0.
     The error norm is the weighted RMS of the embedded 4th-order difference over the
     differential rows (``alg[n_alg:]``). The new point goes to ``vec[1]``, the error weights
-    to ``vec[5]`` (``vec[0]`` is stage scratch). ``status`` is 0 or the consistency solve's
-    failure code.
+    to ``vec[5]`` (``vec[0]`` is stage scratch); ``small`` rows 1, 2, 4 are scratch. ``status``
+    is 0 or the consistency solve's failure code.
+
+    ``one_call``: when the prediction can be trusted (no algebraic rows, or a current Jacobian),
+    stages 1..6 go to the module's ``explicit_stages`` callback, the same arithmetic in one call
+    instead of six (each callback call costs about half an rhs evaluation). From the first stage
+    whose constraint it could not confirm, this function goes on as before.
     """
     n = f0.shape[0]
     n_tot = y.shape[0]
@@ -546,39 +555,60 @@ def dopri_attempt(jacobian_fn, rhs_fn, rhs_quad_fn, t, h, y, p, m, d, w, alg, n_
     ys = vec[0]
     ynew = vec[1]
     sc = vec[5]
+    ftmp = small[1]
+    err = small[2]
+    dz = small[4]
     for j in range(n_tot):
         ys[j] = y[j]
     for j in range(n):
         kst[0, j] = f0[j]
     for q in range(n_quad):
         kq[0, q] = fq0[q]
-    for i in range(1, 7):
-        for jd in range(n_alg, n):
-            j = alg[jd]
-            acc = 0.0
-            for l in range(i):
-                acc += radau_DP_A[i, l] * kst[l, j]
-            x_new = y[j] + h * acc
-            err[j] = x_new - ys[j]    # (err is free until the error estimate) the move from the last stage
-            ys[j] = x_new
-        if n_alg > 0 and ti[radau_I_JAC] == 1 and ti[radau_I_LUA] == 1:
-            # predict the algebraic rows along the move: J_zz dz = -J_zx dx (implicit function theorem),
-            # so with linear constraints and a current Jacobian the solve below converges at once
-            for k in range(n_alg):
+    i_slow = 1    # first stage for the loop below
+    at_point = False
+    if one_call and n > 0 and (n_alg == 0 or (ti[radau_I_JAC] == 1 and ti[radau_I_LUA] == 1)):
+        i_slow = explicit_stages_fn(t, h, rtol, y, p, m, d, w, kst, kq, ys, err, alg, lu_a, atol, n_alg,
+                                    1 if n_quad > 0 else 0)
+        evals = i_slow if i_slow < 7 else 6
+        stats[radau_S_RHS] += evals
+        if n_quad > 0:
+            stats[radau_S_QUAD] += evals
+        at_point = True
+        if i_slow == 7:
+            # w holds the last stage, the new point (as after radau_make_consistent)
+            ti[radau_I_WMARK] = radau_w_mark(stats, ti)
+            tf[radau_F_TW] = t + radau_DP_C[6] * h
+    for i in range(i_slow, 7):
+        if i == i_slow and at_point:
+            pass    # explicit_stages left this stage's predicted point in ys: solve from there
+        else:
+            for jd in range(n_alg, n):
+                j = alg[jd]
                 acc = 0.0
-                for jd in range(n - n_alg):
-                    acc += lu_a[k, n + n_alg + jd] * err[alg[n_alg + jd]]
-                ys[alg[k]] -= acc
+                for l in range(i):
+                    acc += radau_DP_A[i, l] * kst[l, j]
+                x_new = y[j] + h * acc
+                err[j] = x_new - ys[j]    # (err is free until the error estimate) the move from the last stage
+                ys[j] = x_new
+            if n_alg > 0 and ti[radau_I_JAC] == 1 and ti[radau_I_LUA] == 1:
+                # predict the algebraic rows along the move: J_zz dz = -J_zx dx (implicit function theorem),
+                # so with linear constraints and a current Jacobian the solve below converges at once
+                for k in range(n_alg):
+                    acc = 0.0
+                    for jd in range(n - n_alg):
+                        acc += lu_a[k, n + n_alg + jd] * err[alg[n_alg + jd]]
+                    ys[alg[k]] -= acc
         t_i = t + radau_DP_C[i] * h
         n_jac = stats[radau_S_JAC]
         n_rhs = stats[radau_S_RHS]
-        st = radau_make_consistent(jacobian_fn, rhs_fn, rhs_quad_fn, n_quad > 0, t_i, ys, p, m, d, w, n, alg,
+        resume = i == i_slow and at_point   # explicit_stages evaluated this point and found it off the constraint
+        st = radau_make_consistent(jacobian_fn, rhs_fn, rhs_quad_fn, n_quad > 0, resume, t_i, ys, p, m, d, w, n, alg,
                                    n_alg, atol, rtol, nominal, jac, lu_a, piv, kst[i], kq[i], ftmp, dz, y_fail, tf,
                                    ti, stats)
         if st != 0:
             return st, radau_np.inf
         jac_now = stats[radau_S_JAC] != n_jac
-        if not jac_now and ti[radau_I_JACNOW] == 0 and stats[radau_S_RHS] - n_rhs > 1:
+        if not jac_now and ti[radau_I_JACNOW] == 0 and (resume or stats[radau_S_RHS] - n_rhs > 1):
             # the prediction missed: the algebraic block changed (a new duty, a new mode) or is
             # nonlinear. A fresh Jacobian for the next stage, at most one per step
             ti[radau_I_JAC] = 0
@@ -901,7 +931,7 @@ def radau_borrow(typingctx, arr):
 
 @radau_njit(cache=True, error_model="numpy")
 def radau_integrate(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, jacobian_fn, stages_fn,
-                    rhs_quad_fn, t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
+                    rhs_quad_fn, explicit_stages_fn, t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
                     opt, iopt, buf, buf_t, log_t, log_comp, log_kind, log_index, comp_scratch,
                     tf, ti, jac, lu_r, lu_c, lu_a, piv, f0, g_old, qd, fq0, y_fail, stats, scratch):
     """Integrate from ``tf[F_T]`` towards ``t_end``; return a status code.
@@ -916,24 +946,24 @@ def radau_integrate(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, st
     zs, wts, fs, fqs, vec, small, bcs, evs, ev_hits, m_prevs, algs, ts3s, ksts, kqs = scratch
     b = radau_borrow
     return radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, jacobian_fn,
-                      stages_fn, rhs_quad_fn, t_end, b(y), b(p), b(m), b(d), b(w), b(mass), b(atol), b(nominal), b(event_dir), n_main,
+                      stages_fn, rhs_quad_fn, explicit_stages_fn, t_end, b(y), b(p), b(m), b(d), b(w), b(mass), b(atol), b(nominal), b(event_dir), n_main,
                       b(opt), b(iopt), b(buf), b(buf_t), b(log_t), b(log_comp), b(log_kind), b(log_index),
                       b(comp_scratch), b(tf), b(ti), b(jac), b(lu_r), b(lu_c), b(lu_a), b(piv), b(f0), b(g_old),
                       b(qd), b(fq0), b(y_fail), b(stats),
                       b(zs), b(wts), b(fs), b(fqs), b(vec[0]), b(vec[1]), b(vec[2]), b(vec[3]), b(vec[4]),
                       b(vec[5]), b(small[0]), b(bcs), b(small[1]), b(small[2]), b(small[3]), b(small[4]),
                       b(evs[0]), b(evs[3:5]), b(evs[1]), b(ev_hits), b(evs[2]), b(m_prevs), b(algs), b(ts3s), b(ksts), b(kqs),
-                      b(vec))
+                      b(vec), b(small))
 
 
 # without the runtime: no reference counting at all in the loop (every array is the driver's; nothing allocates)
 @radau_njit(cache=True, error_model="numpy", _nrt=False)
 def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, jacobian_fn, stages_fn,
-               rhs_quad_fn, t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
+               rhs_quad_fn, explicit_stages_fn, t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
                opt, iopt, buf, buf_t, log_t, log_comp, log_kind, log_index, comp_scratch,
                tf, ti, jac, lu_r, lu_c, lu_a, piv, f0, g_old, qd, fq0, y_fail, stats,
                z, wt, f, fq, ys, ynew, yold, yint, ysave, sc, br, bc, ftmp, err, zm, dz,
-               g_new, g_st, gtmp, ev_hit, ev_root, m_prev, alg, ts3, kst, kq, vec):
+               g_new, g_st, gtmp, ev_hit, ev_root, m_prev, alg, ts3, kst, kq, vec, small):
     """The step loop of :func:`radau_integrate` (all arrays borrowed views, scratch included)."""
     n = n_main
     n_tot = y.shape[0]
@@ -954,6 +984,7 @@ def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_f
     stage_checks = iopt[3] != 0
     explicit = iopt[4] == 1    # Dormand-Prince 5(4) instead of Radau IIA
     fslot = iopt[5]            # index of the work array's currency flag, -1 none (abi.py)
+    one_call = iopt[6] != 0    # explicit stages through the explicit_stages callback (dopri_attempt)
     fnewt = opt[7] if opt[7] > 0.0 else max(10.0 * radau_EPS / rtol, min(0.03, radau_math.sqrt(rtol)))
     maxit = 30 if fixed else radau_MAXIT
 
@@ -987,7 +1018,7 @@ def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_f
         tf[radau_F_TANCHOR] = -radau_np.inf
         tf[radau_F_ETA] = 1.0
         tf[radau_F_HACC] = 0.0
-        st = radau_make_consistent(jacobian_fn, rhs_fn, rhs_quad_fn, explicit and n_quad > 0, t, y, p, m, d, w, n,
+        st = radau_make_consistent(jacobian_fn, rhs_fn, rhs_quad_fn, explicit and n_quad > 0, False, t, y, p, m, d, w, n,
                                    alg, n_alg, atol, rtol, nominal, jac, lu_a, piv, f0, fq0, ftmp, dz, y_fail, tf,
                                    ti, stats)
         if st != 0:
@@ -1084,9 +1115,9 @@ def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_f
                     return radau_STATUS_NEWTON
                 return radau_STATUS_STEP_TOO_SMALL
             if explicit:
-                code, errn = dopri_attempt(jacobian_fn, rhs_fn, rhs_quad_fn, t, h, y, p, m, d, w, alg, n_alg, atol,
-                                           rtol, nominal, jac, lu_a, piv, f0, fq0, kst, kq, vec, ftmp, dz, err,
-                                           y_fail, tf, ti, stats)
+                code, errn = dopri_attempt(jacobian_fn, rhs_fn, rhs_quad_fn, explicit_stages_fn, one_call, t, h, y,
+                                           p, m, d, w, alg, n_alg, atol, rtol, nominal, jac, lu_a, piv, f0, fq0,
+                                           kst, kq, vec, small, y_fail, tf, ti, stats)
                 if code != 0:
                     # the algebraic rows could not be solved at a stage (or a value was not finite)
                     n_fail += 1
@@ -1408,7 +1439,7 @@ def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_f
                     ti[radau_I_EXT] = 0
                     break
         ti[radau_I_NLOG] = nlog
-        st = radau_make_consistent(jacobian_fn, rhs_fn, rhs_quad_fn, explicit and n_quad > 0, t, y, p, m, d, w, n,
+        st = radau_make_consistent(jacobian_fn, rhs_fn, rhs_quad_fn, explicit and n_quad > 0, False, t, y, p, m, d, w, n,
                                    alg, n_alg, atol, rtol, nominal, jac, lu_a, piv, f0, fq0, ftmp, dz, y_fail, tf,
                                    ti, stats)
         if st != 0:
