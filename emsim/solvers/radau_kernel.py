@@ -1251,7 +1251,10 @@ def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_f
         t_new = t_land if lands else t + h
         f_converged = False
         if explicit:
-            dopri_dense(h, yold, ynew, mass, n, kst, kq, qd)
+            # the dense output only where it is read: an output row inside the step, or event functions
+            # to locate (a sampled drive with rows at its samples never interpolates)
+            if n_ev > 0 or radau_row_time(ti[radau_I_KOUT], out_t0, out_dt) <= t_new - 64.0 * radau_EPS * max(1.0, abs(t_new)):
+                dopri_dense(h, yold, ynew, mass, n, kst, kq, qd)
             tf[radau_F_QT] = t_s
             tf[radau_F_QH] = h_s
             stats[radau_S_STEPS] += 1
