@@ -46,7 +46,7 @@ where noted)::
         jac,          # float64[n_main, n_main]    Jacobian (persistent)
         lu_r,         # float64[n_main, n_main]    LU of (gamma/h) M - J (persistent)
         lu_c,         # complex128[n_main, n_main] LU of ((alpha - i beta)/h) M - J (persistent)
-        lu_a,         # float64[n_main, 2*n_main]  LU, inverse and J_zz^-1 J_zx of J's algebraic block (persistent)
+        lu_a,         # float64[n_main, 2*n_main]  J_zz^-1 and J_zz^-1 J_zx of J's algebraic block (persistent)
         piv,          # int64[3, n_main]           pivots of the three factorisations
         f0,           # float64[n_main]            f(t, y) at the current state (persistent)
         g_old,        # float64[n_events]          event functions at the current state
