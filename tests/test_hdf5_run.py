@@ -118,8 +118,8 @@ def test_event_log_and_energy_audit_in_the_file(runs):
         kind = [kinds[int(k)] for k in ev["kind"][:]]
     assert len(t) >= 1, "this run has power-flow events; the file logged none"
     np.testing.assert_array_equal(t, memory.events["time"])
-    assert [names[c] for c in comp] == memory.events["component"]
-    assert kind == memory.events["kind"]
+    assert [names[c] for c in comp] == list(memory.events["component"])
+    assert kind == list(memory.events["kind"])
     for key in ("supplied", "loss", "delivered", "stored_change", "residual", "relative_residual"):
         assert energy[key] == pytest.approx(memory.energy[key], rel=1e-12, abs=1e-12), key
     print(f"file events {list(t)}; energy {energy}")
