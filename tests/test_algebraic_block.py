@@ -13,7 +13,7 @@ from emsim.solvers import radau_kernel as rk
 
 @nb.njit
 def _setup(jac, lu_a, alg, n_alg, n):
-    return rk.radau_algebraic_setup(jac, lu_a, np.zeros(n, np.int64), alg, n_alg, n, np.zeros(n))
+    return rk.radau_algebraic_setup(jac, lu_a, alg, n_alg, n)
 
 
 def _blocks(jac, alg, n_alg):

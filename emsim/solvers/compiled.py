@@ -47,7 +47,7 @@ where noted)::
         lu_r,         # float64[n_main, n_main]    LU of (gamma/h) M - J (persistent)
         lu_c,         # complex128[n_main, n_main] LU of ((alpha - i beta)/h) M - J (persistent)
         lu_a,         # float64[n_main, 2*n_main]  J_zz^-1 and J_zz^-1 J_zx of J's algebraic block (persistent)
-        piv,          # int64[3, n_main]           pivots of the three factorisations
+        piv,          # int64[3, n_main]           pivots of the real and complex factorisations (row 2 unused)
         f0,           # float64[n_main]            f(t, y) at the current state (persistent)
         g_old,        # float64[n_events]          event functions at the current state
         qd,           # float64[4, n_main+n_quad]  dense output of the last step

@@ -411,7 +411,7 @@ def radau_error(rhs_fn, t, h, y, ynew, z, f0, mass, n, atol, rtol, lu_r, piv, p,
 
 
 @radau_njit(cache=True, inline="always")
-def radau_algebraic_setup(jac, lu_a, piv, alg, n_alg, n, tmp):
+def radau_algebraic_setup(jac, lu_a, alg, n_alg, n):
     """The two products the algebraic block's solves need, from ``jac``: J_zz^-1 and J_zz^-1 J_zx.
 
     ``lu_a`` (n x 2n): columns ``[n, n + n_alg)`` take ``J_zz^-1`` and ``[n + n_alg, 2n)``
@@ -422,7 +422,6 @@ def radau_algebraic_setup(jac, lu_a, piv, alg, n_alg, n, tmp):
     ``[J_zz | I | J_zx]`` (Golub & Van Loan, Matrix Computations, 3.1; half the time of an LU
     factorisation followed by n_alg solves and a product, on the drives' 3 x 3 block).
     Returns 0, or 1 + the elimination step whose pivot column is exactly zero (J_zz singular).
-    ``piv`` and ``tmp`` are not used (kept for the call sites' shape).
     """
     w2 = 2 * n
     for i in range(n_alg):
@@ -470,7 +469,7 @@ def radau_algebraic_setup(jac, lu_a, piv, alg, n_alg, n, tmp):
 
 @radau_njit(cache=True, inline="always")
 def radau_make_consistent(jacobian_fn, rhs_fn, rhs_quad_fn, want_quad, evaluated, t, y, p, m, d, w, n, alg, n_alg,
-                          atol, rtol, nominal, jac, lu_a, piv, f0, fq, ftmp, dz, y_fail, tf, ti, stats):
+                          atol, rtol, nominal, jac, lu_a, f0, fq, ftmp, dz, y_fail, tf, ti, stats):
     """Solve the algebraic rows for their states with the differential rows fixed.
 
     Newton iterations with the algebraic block of the stored Jacobian (the
@@ -512,7 +511,7 @@ def radau_make_consistent(jacobian_fn, rhs_fn, rhs_quad_fn, want_quad, evaluated
                 ti[radau_I_LU] = 0
                 ti[radau_I_LUA] = 0
             if ti[radau_I_LUA] == 0:
-                info = radau_algebraic_setup(jac, lu_a, piv[2], alg, n_alg, n, dz)
+                info = radau_algebraic_setup(jac, lu_a, alg, n_alg, n)
                 stats[radau_S_LU] += 1
                 if info != 0:
                     ti[radau_I_FAILINFO] = alg[info - 1]
@@ -555,7 +554,7 @@ def radau_make_consistent(jacobian_fn, rhs_fn, rhs_quad_fn, want_quad, evaluated
 # f(*args), which numba's inliner refuses; ys, ynew and sc therefore come as rows of ``vec``
 @radau_njit(cache=True, inline="always")
 def dopri_attempt(jacobian_fn, rhs_fn, rhs_quad_fn, explicit_stages_fn, one_call, t, h, y, p, m, d, w, alg, n_alg,
-                  atol, rtol, nominal, jac, lu_a, piv, f0, fq0, kst, kq, vec, small, y_fail, tf, ti, stats):
+                  atol, rtol, nominal, jac, lu_a, f0, fq0, kst, kq, vec, small, y_fail, tf, ti, stats):
     """One Dormand-Prince 5(4) step of size ``h`` from ``(t, y)`` into ``ynew``; returns (status, error norm).
 
     Stage 0 is ``f0`` (and ``fq0``, the quadrature integrands) at the step start. At every
@@ -628,7 +627,7 @@ def dopri_attempt(jacobian_fn, rhs_fn, rhs_quad_fn, explicit_stages_fn, one_call
         n_rhs = stats[radau_S_RHS]
         resume = i == i_slow and at_point   # explicit_stages evaluated this point and found it off the constraint
         st = radau_make_consistent(jacobian_fn, rhs_fn, rhs_quad_fn, n_quad > 0, resume, t_i, ys, p, m, d, w, n, alg,
-                                   n_alg, atol, rtol, nominal, jac, lu_a, piv, kst[i], kq[i], ftmp, dz, y_fail, tf,
+                                   n_alg, atol, rtol, nominal, jac, lu_a, kst[i], kq[i], ftmp, dz, y_fail, tf,
                                    ti, stats)
         if st != 0:
             return st, radau_np.inf
@@ -1044,7 +1043,7 @@ def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_f
         tf[radau_F_ETA] = 1.0
         tf[radau_F_HACC] = 0.0
         st = radau_make_consistent(jacobian_fn, rhs_fn, rhs_quad_fn, explicit and n_quad > 0, False, t, y, p, m, d, w, n,
-                                   alg, n_alg, atol, rtol, nominal, jac, lu_a, piv, f0, fq0, ftmp, dz, y_fail, tf,
+                                   alg, n_alg, atol, rtol, nominal, jac, lu_a, f0, fq0, ftmp, dz, y_fail, tf,
                                    ti, stats)
         if st != 0:
             return st
@@ -1141,7 +1140,7 @@ def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_f
                 return radau_STATUS_STEP_TOO_SMALL
             if explicit:
                 code, errn = dopri_attempt(jacobian_fn, rhs_fn, rhs_quad_fn, explicit_stages_fn, one_call, t, h, y,
-                                           p, m, d, w, alg, n_alg, atol, rtol, nominal, jac, lu_a, piv, f0, fq0,
+                                           p, m, d, w, alg, n_alg, atol, rtol, nominal, jac, lu_a, f0, fq0,
                                            kst, kq, vec, small, y_fail, tf, ti, stats)
                 if code != 0:
                     # the algebraic rows could not be solved at a stage (or a value was not finite)
@@ -1468,7 +1467,7 @@ def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_f
                     break
         ti[radau_I_NLOG] = nlog
         st = radau_make_consistent(jacobian_fn, rhs_fn, rhs_quad_fn, explicit and n_quad > 0, False, t, y, p, m, d, w, n,
-                                   alg, n_alg, atol, rtol, nominal, jac, lu_a, piv, f0, fq0, ftmp, dz, y_fail, tf,
+                                   alg, n_alg, atol, rtol, nominal, jac, lu_a, f0, fq0, ftmp, dz, y_fail, tf,
                                    ti, stats)
         if st != 0:
             tf[radau_F_T] = t
