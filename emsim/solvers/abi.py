@@ -111,7 +111,7 @@ def system_explicit_stages(t, h, rtol, y, p, m, d, w, kst, kq, ys, err, alg, lu_
                 acc += lu_a[k, n + n_alg + jd] * err[alg[n_alg + jd]]
             ys[alg[k]] -= acc
         t_i = t + _abi_DP_C[i] * h
-        if want_quad != 0:
+        if want_quad != 0 and i != 1:    # stage 1's weights for the integrands are zero
             system_rhs_quad(t_i, ys, p, m, d, w, kst[i], kq[i])
         else:
             system_rhs(t_i, ys, p, m, d, w, kst[i])
@@ -129,7 +129,7 @@ def system_explicit_stages(t, h, rtol, y, p, m, d, w, kst, kq, ys, err, alg, lu_
                 acc += q * q
             if not _abi_math.sqrt(acc / n_alg) <= 1e-3:
                 return i
-        if want_quad != 0:
+        if want_quad != 0 and i != 1:
             for q in range(n_quad):
                 if not _abi_math.isfinite(kq[i, q]):
                     return i

@@ -561,7 +561,8 @@ def dopri_attempt(jacobian_fn, rhs_fn, rhs_quad_fn, explicit_stages_fn, one_call
     later stage the differential rows come from the tableau and the algebraic rows are
     solved for by :func:`radau_make_consistent` (starting from the previous stage's values),
     so each stage derivative is taken on the constraint (index 1); the quadrature integrands
-    are evaluated at the same consistent stage points and integrated with the same weights.
+    are evaluated at the same consistent stage points and integrated with the same weights
+    (except at stage 1, whose weights in the solution and the dense output are zero).
     Stage 6 is the new point: ``kst[6]``, ``kq[6]`` serve as the next step's stage 0.
     The error norm is the weighted RMS of the embedded 4th-order difference over the
     differential rows (``alg[n_alg:]``). The new point goes to ``vec[1]``, the error weights
@@ -588,6 +589,7 @@ def dopri_attempt(jacobian_fn, rhs_fn, rhs_quad_fn, explicit_stages_fn, one_call
         kst[0, j] = f0[j]
     for q in range(n_quad):
         kq[0, q] = fq0[q]
+        kq[1, q] = 0.0    # stage 1 has weight 0 in the solution and the dense output: not evaluated
     i_slow = 1    # first stage for the loop below
     at_point = False
     if one_call and n > 0 and (n_alg == 0 or (ti[radau_I_JAC] == 1 and ti[radau_I_LUA] == 1)):
@@ -596,7 +598,7 @@ def dopri_attempt(jacobian_fn, rhs_fn, rhs_quad_fn, explicit_stages_fn, one_call
         evals = i_slow if i_slow < 7 else 6
         stats[radau_S_RHS] += evals
         if n_quad > 0:
-            stats[radau_S_QUAD] += evals
+            stats[radau_S_QUAD] += evals - 1    # none at stage 1
         at_point = True
         if i_slow == 7:
             # w holds the last stage, the new point (as after radau_make_consistent)
@@ -626,7 +628,8 @@ def dopri_attempt(jacobian_fn, rhs_fn, rhs_quad_fn, explicit_stages_fn, one_call
         n_jac = stats[radau_S_JAC]
         n_rhs = stats[radau_S_RHS]
         resume = i == i_slow and at_point   # explicit_stages evaluated this point and found it off the constraint
-        st = radau_make_consistent(jacobian_fn, rhs_fn, rhs_quad_fn, n_quad > 0, resume, t_i, ys, p, m, d, w, n, alg,
+        st = radau_make_consistent(jacobian_fn, rhs_fn, rhs_quad_fn, n_quad > 0 and i != 1, resume, t_i, ys, p, m, d,
+                                   w, n, alg,
                                    n_alg, atol, rtol, nominal, jac, lu_a, kst[i], kq[i], ftmp, dz, y_fail, tf,
                                    ti, stats)
         if st != 0:
@@ -636,7 +639,7 @@ def dopri_attempt(jacobian_fn, rhs_fn, rhs_quad_fn, explicit_stages_fn, one_call
             # the prediction missed: the algebraic block changed (a new duty, a new mode) or is
             # nonlinear. A fresh Jacobian for the next stage, at most one per step
             ti[radau_I_JAC] = 0
-        if n_quad > 0:
+        if n_quad > 0 and i != 1:
             if not radau_dense.all_finite(kq[i], n_quad):
                 for j in range(n_tot):
                     y_fail[j] = ys[j]
