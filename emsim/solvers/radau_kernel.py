@@ -672,6 +672,10 @@ def dopri_attempt(jacobian_fn, rhs_fn, rhs_quad_fn, explicit_stages_fn, one_call
 def dopri_dense(h, yold, ynew, mass, n, kst, kq, qd):
     """The quartic dense output of a Dormand-Prince step in the ``qd`` form of :func:`radau_interp`.
 
+    The loop forms it only for a step that reads it (an output row inside the step, or event
+    functions to locate): any new reader of ``qd`` after an explicit step must be added to
+    that condition.
+
     Differential and quadrature rows: the published 4th-order continuous extension.
     Algebraic rows carry no stage derivatives: they are interpolated linearly between
     the two consistent end points (inside a step an output row or event function
