@@ -46,7 +46,7 @@ SIGNATURES = {
     "rhs_quad": types.void(_f8, _A, _A, _I, _A, _A, _A, _A),
     # stages 1..6 of one Dormand-Prince step in one call, each algebraic row predicted along the
     # stage move and checked (see system_explicit_stages); returns the first stage it did not finish
-    "explicit_stages": types.int64(_f8, _f8, _f8, _A, _A, _I, _A, _A, _A2, _A2, _A, _A, _I, _A2, _A, _i8, _i8),
+    "explicit_stages": types.int64(_f8, _f8, _f8, _A, _A, _I, _A, _A, _A2, _A2, _A, _A, _I, _A2, _A, _i8, _i8, _A),
 }
 
 
@@ -61,7 +61,7 @@ ARGS = {
     "jacobian": "t, y, p, m, d, w, jac",
     "stages": "ts, y, z, ys, p, m, d, w, f, fq, want_quad",
     "rhs_quad": "t, y, p, m, d, w, dy, dq",
-    "explicit_stages": "t, h, rtol, y, p, m, d, w, kst, kq, ys, err, alg, lu_a, atol, n_alg, want_quad",
+    "explicit_stages": "t, h, rtol, y, p, m, d, w, kst, kq, ys, err, alg, lu_a, atol, n_alg, want_quad, dz",
 }
 
 # ``system_stages`` and ``system_rhs_quad`` are the same for every module: written here once, in terms
@@ -87,29 +87,17 @@ def system_rhs_quad(t, y, p, m, d, w, dy, dq):
 
 
 @_abi_numba.njit(cache=True, error_model="numpy")
-def system_explicit_stages(t, h, rtol, y, p, m, d, w, kst, kq, ys, err, alg, lu_a, atol, n_alg, want_quad):
-    # Stages 1..6 of a Dormand-Prince 5(4) step (kst[0], kq[0] and ys = y are the caller's), the
-    # arithmetic of emsim.solvers.radau_kernel.dopri_attempt operation for operation, in one call
-    # instead of six. Each stage's algebraic rows are predicted with lu_a (radau_algebraic_setup)
-    # and the stage counts as done when one correction would be below 1e-3 of the tolerance.
-    # Returns 7, or the first stage i not done: its point is in ys, evaluated into kst[i], and the
-    # caller goes on from there with its own consistency solve.
+def system_explicit_stages(t, h, rtol, y, p, m, d, w, kst, kq, ys, err, alg, lu_a, atol, n_alg, want_quad, dz):
+    # Stages 1..6 of a Dormand-Prince 5(4) step (kst[0], kq[0] and ys = y are the caller's) in one
+    # call instead of six, with the loop's own stage point and constraint test (radau_kernel's
+    # dopri_stage_point and radau_constraint_correction): the stage counts as done when one
+    # correction of its algebraic rows would be below 1e-3 of the tolerance. Returns 7, or the first
+    # stage i not done: its point is in ys, evaluated into kst[i], and the caller goes on from there
+    # with its own consistency solve.
     n = kst.shape[1]
     n_quad = y.shape[0] - n
     for i in range(1, 7):
-        for jd in range(n_alg, n):
-            j = alg[jd]
-            acc = 0.0
-            for l in range(i):
-                acc += _abi_DP_A[i, l] * kst[l, j]
-            x_new = y[j] + h * acc
-            err[j] = x_new - ys[j]
-            ys[j] = x_new
-        for k in range(n_alg):
-            acc = 0.0
-            for jd in range(n - n_alg):
-                acc += lu_a[k, n + n_alg + jd] * err[alg[n_alg + jd]]
-            ys[alg[k]] -= acc
+        _abi_stage_point(i, h, y, ys, kst, err, alg, n_alg, n, lu_a, True)
         t_i = t + _abi_DP_C[i] * h
         if want_quad != 0 and i != 1:    # stage 1's weights for the integrands are zero
             system_rhs_quad(t_i, ys, p, m, d, w, kst[i], kq[i])
@@ -118,17 +106,8 @@ def system_explicit_stages(t, h, rtol, y, p, m, d, w, kst, kq, ys, err, alg, lu_
         for j in range(n):
             if not _abi_math.isfinite(kst[i, j]):
                 return i
-        if n_alg > 0:
-            acc = 0.0
-            for k in range(n_alg):
-                c = 0.0
-                for l in range(n_alg):
-                    c += lu_a[k, n + l] * kst[i, alg[l]]
-                a = alg[k]
-                q = c / (atol[a] + rtol * abs(ys[a]))
-                acc += q * q
-            if not _abi_math.sqrt(acc / n_alg) <= 1e-3:
-                return i
+        if n_alg > 0 and not _abi_correction(lu_a, kst[i], ys, atol, rtol, alg, n_alg, n, dz)[0] <= 1e-3:
+            return i
         if want_quad != 0 and i != 1:
             for q in range(n_quad):
                 if not _abi_math.isfinite(kq[i, q]):
@@ -139,6 +118,21 @@ def system_explicit_stages(t, h, rtol, y, p, m, d, w, kst, kq, ys, err, alg, lu_
 
 # once per run, and a component's start kernel may allocate
 _WITH_RUNTIME = ("start",)
+
+
+def _inlined_digest() -> str:
+    """SHA-256 of the kernel helpers (and tableau) that the shared source inlines.
+
+    A generated module is cached under the hash of its text, and numba caches its machine code by
+    its own file: without this line in the text, a change of those helpers would leave every
+    cached module running the old ones.
+    """
+    import hashlib
+    import inspect
+
+    from . import radau_kernel as rk
+    text = "".join(inspect.getsource(f.py_func) for f in (rk.dopri_stage_point, rk.radau_constraint_correction))
+    return hashlib.sha256((text + rk.radau_DP_A.tobytes().hex() + rk.radau_DP_C.tobytes().hex()).encode()).hexdigest()
 
 
 def export_source(lean: bool = True) -> str:
@@ -154,7 +148,10 @@ def export_source(lean: bool = True) -> str:
     """
     lines = ["", "from emsim.solvers.abi import SIGNATURES as _abi_signatures",
              "import math as _abi_math", "import numba as _abi_numba",
-             "from emsim.solvers.radau_kernel import radau_DP_A as _abi_DP_A, radau_DP_C as _abi_DP_C",
+             "from emsim.solvers.radau_kernel import radau_DP_C as _abi_DP_C",
+             "from emsim.solvers.radau_kernel import dopri_stage_point as _abi_stage_point",
+             "from emsim.solvers.radau_kernel import radau_constraint_correction as _abi_correction",
+             f"# inlined from emsim.solvers.radau_kernel: {_inlined_digest()}",
              _STAGES_SOURCE]
     for name, args in ARGS.items():
         flags = ", _nrt=False" if lean and name not in _WITH_RUNTIME else ""

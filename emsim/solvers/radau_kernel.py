@@ -468,6 +468,58 @@ def radau_algebraic_setup(jac, lu_a, alg, n_alg, n):
 
 
 @radau_njit(cache=True, inline="always")
+def radau_constraint_correction(lu_a, f, y, atol, rtol, alg, n_alg, n, dz):
+    """The Newton correction of the algebraic rows, ``dz = J_zz^-1 f_z`` (``f_z``: ``f`` on the rows
+    ``alg[:n_alg]``, with ``lu_a`` from :func:`radau_algebraic_setup`).
+
+    Returns its weighted RMS norm (weights ``atol + rtol |y|``) and the row with the largest
+    weighted entry. Shared by :func:`radau_make_consistent` and the module function
+    ``system_explicit_stages`` (emsim/solvers/abi.py), which must test stages alike.
+    """
+    acc = 0.0
+    worst = 0.0
+    iworst = alg[0]
+    for i in range(n_alg):
+        c = 0.0
+        for l in range(n_alg):
+            c += lu_a[i, n + l] * f[alg[l]]
+        dz[i] = c
+        a = alg[i]
+        q = c / (atol[a] + rtol * abs(y[a]))
+        acc += q * q
+        if abs(q) > worst:
+            worst = abs(q)
+            iworst = a
+    return radau_math.sqrt(acc / n_alg), iworst
+
+
+@radau_njit(cache=True, inline="always")
+def dopri_stage_point(i, h, y, ys, kst, err, alg, n_alg, n, lu_a, predict):
+    """Stage ``i``'s point of a Dormand-Prince step into ``ys``, which holds stage ``i - 1``'s.
+
+    Differential rows (``alg[n_alg:]``) from the tableau and the stage derivatives ``kst[:i]``;
+    with ``predict``, the algebraic rows moved along the stage move (J_zz dz = -J_zx dx, the
+    implicit function theorem, with ``lu_a``'s J_zz^-1 J_zx), so that with linear constraints and
+    a current Jacobian the point is consistent at once. ``err`` takes the move (scratch). Shared by
+    :func:`dopri_attempt` and the module function ``system_explicit_stages`` (abi.py).
+    """
+    for jd in range(n_alg, n):
+        j = alg[jd]
+        acc = 0.0
+        for l in range(i):
+            acc += radau_DP_A[i, l] * kst[l, j]
+        x_new = y[j] + h * acc
+        err[j] = x_new - ys[j]
+        ys[j] = x_new
+    if predict:
+        for k in range(n_alg):
+            acc = 0.0
+            for jd in range(n - n_alg):
+                acc += lu_a[k, n + n_alg + jd] * err[alg[n_alg + jd]]
+            ys[alg[k]] -= acc
+
+
+@radau_njit(cache=True, inline="always")
 def radau_make_consistent(jacobian_fn, rhs_fn, rhs_quad_fn, want_quad, evaluated, t, y, p, m, d, w, n, alg, n_alg,
                           atol, rtol, nominal, jac, lu_a, f0, fq, ftmp, dz, y_fail, tf, ti, stats):
     """Solve the algebraic rows for their states with the differential rows fixed.
@@ -520,22 +572,9 @@ def radau_make_consistent(jacobian_fn, rhs_fn, rhs_quad_fn, want_quad, evaluated
                         y_fail[i] = y[i]
                     return radau_STATUS_NEWTON
                 ti[radau_I_LUA] = 1
-            acc = 0.0
-            worst = 0.0
-            iworst = alg[0]
-            for i in range(n_alg):
-                c = 0.0
-                for l in range(n_alg):
-                    c += lu_a[i, n + l] * f0[alg[l]]
-                dz[i] = c
-                a = alg[i]
-                q = c / (atol[a] + rtol * abs(y[a]))
-                acc += q * q
-                if abs(q) > worst:
-                    worst = abs(q)
-                    iworst = a
+            nrm, iworst = radau_constraint_correction(lu_a, f0, y, atol, rtol, alg, n_alg, n, dz)
             ti[radau_I_FAILINFO] = iworst
-            if radau_math.sqrt(acc / n_alg) <= 1e-3:
+            if nrm <= 1e-3:
                 ti[radau_I_WMARK] = radau_w_mark(stats, ti) if fresh else 0
                 tf[radau_F_TW] = t
                 return 0
@@ -594,7 +633,7 @@ def dopri_attempt(jacobian_fn, rhs_fn, rhs_quad_fn, explicit_stages_fn, one_call
     at_point = False
     if one_call and n > 0 and (n_alg == 0 or (ti[radau_I_JAC] == 1 and ti[radau_I_LUA] == 1)):
         i_slow = explicit_stages_fn(t, h, rtol, y, p, m, d, w, kst, kq, ys, err, alg, lu_a, atol, n_alg,
-                                    1 if n_quad > 0 else 0)
+                                    1 if n_quad > 0 else 0, dz)
         evals = i_slow if i_slow < 7 else 6
         stats[radau_S_RHS] += evals
         if n_quad > 0:
@@ -605,25 +644,9 @@ def dopri_attempt(jacobian_fn, rhs_fn, rhs_quad_fn, explicit_stages_fn, one_call
             ti[radau_I_WMARK] = radau_w_mark(stats, ti)
             tf[radau_F_TW] = t + radau_DP_C[6] * h
     for i in range(i_slow, 7):
-        if i == i_slow and at_point:
-            pass    # explicit_stages left this stage's predicted point in ys: solve from there
-        else:
-            for jd in range(n_alg, n):
-                j = alg[jd]
-                acc = 0.0
-                for l in range(i):
-                    acc += radau_DP_A[i, l] * kst[l, j]
-                x_new = y[j] + h * acc
-                err[j] = x_new - ys[j]    # (err is free until the error estimate) the move from the last stage
-                ys[j] = x_new
-            if n_alg > 0 and ti[radau_I_JAC] == 1 and ti[radau_I_LUA] == 1:
-                # predict the algebraic rows along the move: J_zz dz = -J_zx dx (implicit function theorem),
-                # so with linear constraints and a current Jacobian the solve below converges at once
-                for k in range(n_alg):
-                    acc = 0.0
-                    for jd in range(n - n_alg):
-                        acc += lu_a[k, n + n_alg + jd] * err[alg[n_alg + jd]]
-                    ys[alg[k]] -= acc
+        if not (i == i_slow and at_point):    # else explicit_stages left this stage's point in ys
+            dopri_stage_point(i, h, y, ys, kst, err, alg, n_alg, n, lu_a,
+                              ti[radau_I_JAC] == 1 and ti[radau_I_LUA] == 1)
         t_i = t + radau_DP_C[i] * h
         n_jac = stats[radau_S_JAC]
         n_rhs = stats[radau_S_RHS]
