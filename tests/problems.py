@@ -202,3 +202,33 @@ def drive_segment_reference(n):
             duty = u
             integ += Ts * e
     return np.array(ref)
+
+
+# CHAIN: 12 decoupled decays x_k' = -(k + 1) x_k + (z_k - x_k - x_{k+1}) interleaved with 10 algebraic
+# rows 0 = z_k - x_k - x_{k+1} (k < 10): on the constraint the coupling term is zero, so
+# x_k(t) = x_k(0) exp(-(k + 1) t). Rows: x_k at 2k and z_k at 2k + 1 for k < 10, then x_10, x_11.
+CHAIN_DIFF = 12
+CHAIN_ALG = 10
+
+
+def chain_rows():
+    """(row of x_k for k < 12, row of z_k for k < 10, mass diagonal)."""
+    xr = [2 * k for k in range(CHAIN_ALG)] + [2 * CHAIN_ALG + j for j in range(CHAIN_DIFF - CHAIN_ALG)]
+    zr = [2 * k + 1 for k in range(CHAIN_ALG)]
+    mass = np.ones(CHAIN_DIFF + CHAIN_ALG)
+    mass[zr] = 0.0
+    return xr, zr, mass
+
+
+def chain_rhs(t, y, dy):
+    n_alg = 10
+    for k in range(12):
+        xk = y[2 * k] if k < n_alg else y[2 * n_alg + k - n_alg]
+        coupling = 0.0
+        if k < n_alg:
+            xn = y[2 * (k + 1)] if k + 1 < n_alg else y[2 * n_alg + k + 1 - n_alg]
+            coupling = y[2 * k + 1] - xk - xn
+            dy[2 * k + 1] = coupling
+            dy[2 * k] = -(k + 1.0) * xk + coupling
+        else:
+            dy[2 * n_alg + k - n_alg] = -(k + 1.0) * xk

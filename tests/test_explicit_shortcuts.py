@@ -79,3 +79,59 @@ def test_a_flag_slot_outside_the_work_array_is_refused():
     prob.fresh_slot = prob.n_work
     with pytest.raises(SolverError, match="fresh_slot"):
         emsim.simulate(prob, 0.1, out_dt=0.01, solver=DormandPrince5())
+
+
+def _chain(mass=None):
+    from emsim.solvers.standalone import compile_standalone
+    from problems import chain_rhs, chain_rows
+    xr, zr, chain_mass = chain_rows()
+    y0 = np.zeros(len(chain_mass))
+    for k, r in enumerate(xr):
+        y0[r] = 1.0 + 0.1 * k
+    for k, r in enumerate(zr):
+        y0[r] = y0[xr[k]] + y0[xr[k + 1]]
+    return compile_standalone(chain_rhs, y0, mass=chain_mass if mass is None else mass, name="chain"), xr, y0
+
+
+def _run_standalone(prob, one_call, rtol=1e-8):
+    from emsim.results.memory import MemoryRecorder
+    solver = DormandPrince5(rtol=rtol)
+    solver.one_call_stages = one_call
+    sink = MemoryRecorder()
+    stats = solver.run(prob, 1.0, out_dt=0.05, sink=sink)
+    t, rows = sink.arrays()
+    return t, rows, stats
+
+
+def test_written_out_stages_on_a_layout_with_long_sums_and_interleaved_rows():
+    # 12 differential rows interleaved with 10 algebraic ones: the written-out sums run past one
+    # statement (stage_source._TERMS_PER_LINE) and the rows are not in algebraic-first order
+    prob, xr, y0 = _chain()
+    one, per_stage = _run_standalone(prob, True), _run_standalone(prob, False)
+    np.testing.assert_array_equal(one[1], per_stage[1])
+    assert one[2] == per_stage[2]
+    # closed form (on the constraint the coupling vanishes): x_k = x_k(0) exp(-(k + 1) t)
+    t, rows = one[0], one[1]
+    for k, r in enumerate(xr):
+        exact = y0[r] * np.exp(-(k + 1.0) * t)
+        np.testing.assert_allclose(rows[:, r], exact, rtol=1e-6, atol=1e-9, err_msg=f"x_{k}")
+    # z_k = x_k + x_{k+1} at the last row, a step end (inside a step algebraic rows are interpolated
+    # linearly), to the consistency test's 1e-3 of the tolerance
+    for k in range(len(xr) - 2):
+        assert abs(rows[-1, 2 * k + 1] - rows[-1, xr[k]] - rows[-1, xr[k + 1]]) < 1e-10, k
+
+
+def test_one_source_with_two_row_layouts_gets_two_modules():
+    prob, _, _ = _chain()
+    all_differential = np.ones(len(prob.mass))
+    other, _, _ = _chain(mass=all_differential)
+    assert other.module is not prob.module
+    assert prob.module._abi_explicit_layout[0] == tuple(int(i) for i in np.flatnonzero(prob.mass == 0.0))
+    assert other.module._abi_explicit_layout[0] == ()
+
+
+def test_a_mass_changed_after_the_module_was_built_is_refused():
+    prob, _, _ = _chain()
+    prob.mass = np.ones(len(prob.mass))
+    with pytest.raises(SolverError, match="explicit stages were generated for algebraic rows"):
+        _run_standalone(prob, True)

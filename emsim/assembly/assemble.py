@@ -32,7 +32,7 @@ def assemble(system: System, *, t0: float = 0.0) -> Problem:
     _apply_initial(st, lay)
     source, names, units, fingerprint = generate(st, lay)
     try:
-        module = load_with_callbacks("system", source, extra_key=fingerprint)
+        module = load_with_callbacks("system", source, extra_key=fingerprint, mass=lay.mass, n_quad=lay.n_quad)
     except EmsimError:
         raise
     except Exception as exc:  # the exported callbacks compile at import: numba typing/lowering errors

@@ -12,6 +12,7 @@ import hashlib
 import importlib.util
 import os
 import sys
+from collections.abc import Sequence
 from pathlib import Path
 from types import ModuleType
 
@@ -66,8 +67,12 @@ def load_generated(prefix: str, source: str, extra_key: str = "") -> ModuleType:
     return module
 
 
-def load_with_callbacks(prefix: str, source: str, extra_key: str = "") -> ModuleType:
+def load_with_callbacks(prefix: str, source: str, extra_key: str = "", *, mass: Sequence[float],
+                        n_quad: int) -> ModuleType:
     """``source`` plus its exported callbacks, loaded as a module: lean callbacks when its code allows.
+
+    ``mass`` and ``n_quad`` are the row layout some callbacks are written out for (see
+    :func:`emsim.solvers.abi.export_source`); they join the cache key.
 
     The lean export (:func:`emsim.solvers.abi.export_source`) fails to compile
     when a kernel allocates an array; the module is then loaded again, under
@@ -79,15 +84,17 @@ def load_with_callbacks(prefix: str, source: str, extra_key: str = "") -> Module
     from ..errors import EmsimError
     from ..solvers.abi import export_source
 
+    # the export text depends on the layout: two layouts with one source are two modules
+    extra_key = f"{extra_key}\0mass {[float(v) != 0.0 for v in mass]} quad {int(n_quad)}"
     marker = cache_dir() / f"emsim_generated_{prefix}_{structure_key(source, extra_key)}.needs-runtime"
     if not marker.exists():
         try:
-            return load_generated(prefix, source + export_source(lean=True), extra_key)
+            return load_generated(prefix, source + export_source(mass, n_quad, lean=True), extra_key)
         except EmsimError:
             raise
         except Exception:  # noqa: BLE001 - numba typing/lowering errors; the retry reports real faults
             pass
-    module = load_generated(prefix, source + export_source(lean=False), extra_key)
+    module = load_generated(prefix, source + export_source(mass, n_quad, lean=False), extra_key)
     marker.touch()
     return module
 

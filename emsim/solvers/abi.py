@@ -15,7 +15,11 @@ problem has ``fresh_slot = -1`` never sees the flag.
 """
 from __future__ import annotations
 
+from collections.abc import Sequence
+
 from numba import types
+
+from .stage_source import explicit_stages_source
 
 _f8 = types.float64
 _i8 = types.int64
@@ -85,34 +89,6 @@ def system_rhs_quad(t, y, p, m, d, w, dy, dq):
     system_rhs(t, y, p, m, d, w, dy)
     system_quad_at_rhs(t, y, p, m, d, w, dq)
 
-
-@_abi_numba.njit(cache=True, error_model="numpy")
-def system_explicit_stages(t, h, rtol, y, p, m, d, w, kst, kq, ys, err, alg, lu_a, atol, n_alg, want_quad, dz):
-    # Stages 1..6 of a Dormand-Prince 5(4) step (kst[0], kq[0] and ys = y are the caller's) in one
-    # call instead of six, with the loop's own stage point and constraint test (radau_kernel's
-    # dopri_stage_point and radau_constraint_correction): the stage counts as done when one
-    # correction of its algebraic rows would be below 1e-3 of the tolerance. Returns 7, or the first
-    # stage i not done: its point is in ys, evaluated into kst[i], and the caller goes on from there
-    # with its own consistency solve.
-    n = kst.shape[1]
-    n_quad = y.shape[0] - n
-    for i in range(1, 7):
-        _abi_stage_point(i, h, y, ys, kst, err, alg, n_alg, n, lu_a, True)
-        t_i = t + _abi_DP_C[i] * h
-        if want_quad != 0 and i != 1:    # stage 1's weights for the integrands are zero
-            system_rhs_quad(t_i, ys, p, m, d, w, kst[i], kq[i])
-        else:
-            system_rhs(t_i, ys, p, m, d, w, kst[i])
-        for j in range(n):
-            if not _abi_math.isfinite(kst[i, j]):
-                return i
-        if n_alg > 0 and not _abi_correction(lu_a, kst[i], ys, atol, rtol, alg, n_alg, n, dz)[0] <= 1e-3:
-            return i
-        if want_quad != 0 and i != 1:
-            for q in range(n_quad):
-                if not _abi_math.isfinite(kq[i, q]):
-                    return i
-    return 7
 """
 
 
@@ -120,23 +96,12 @@ def system_explicit_stages(t, h, rtol, y, p, m, d, w, kst, kq, ys, err, alg, lu_
 _WITH_RUNTIME = ("start",)
 
 
-def _inlined_digest() -> str:
-    """SHA-256 of the kernel helpers (and tableau) that the shared source inlines.
-
-    A generated module is cached under the hash of its text, and numba caches its machine code by
-    its own file: without this line in the text, a change of those helpers would leave every
-    cached module running the old ones.
-    """
-    import hashlib
-    import inspect
-
-    from . import radau_kernel as rk
-    text = "".join(inspect.getsource(f.py_func) for f in (rk.dopri_stage_point, rk.radau_constraint_correction))
-    return hashlib.sha256((text + rk.radau_DP_A.tobytes().hex() + rk.radau_DP_C.tobytes().hex()).encode()).hexdigest()
-
-
-def export_source(lean: bool = True) -> str:
+def export_source(mass: Sequence[float], n_quad: int, lean: bool = True) -> str:
     """Lines a generated module appends to export its ``system_*`` functions as callbacks.
+
+    ``mass`` (the diagonal of M over the main rows, 0 on algebraic rows) and ``n_quad`` (the
+    number of quadrature rows) are the row layout ``system_explicit_stages`` is written out for
+    (:mod:`emsim.solvers.stage_source`); the other functions are the same for every module.
 
     ``lean``: compile the callbacks that run every step without numba's
     reference counting (``_nrt=False``; it is inherited by every jitted function
@@ -147,12 +112,8 @@ def export_source(lean: bool = True) -> str:
     then loads the module again with ``lean=False``.
     """
     lines = ["", "from emsim.solvers.abi import SIGNATURES as _abi_signatures",
-             "import math as _abi_math", "import numba as _abi_numba",
-             "from emsim.solvers.radau_kernel import radau_DP_C as _abi_DP_C",
-             "from emsim.solvers.radau_kernel import dopri_stage_point as _abi_stage_point",
-             "from emsim.solvers.radau_kernel import radau_constraint_correction as _abi_correction",
-             f"# inlined from emsim.solvers.radau_kernel: {_inlined_digest()}",
-             _STAGES_SOURCE]
+             "import numba as _abi_numba", _STAGES_SOURCE,
+             explicit_stages_source(mass, n_quad, prefix="_abi_")]
     for name, args in ARGS.items():
         flags = ", _nrt=False" if lean and name not in _WITH_RUNTIME else ""
         # a thin Python-level wrapper: numba's cache needs a plain function, not a dispatcher

@@ -318,6 +318,12 @@ class RadauRun:
         fresh_slot = int(getattr(problem, "fresh_slot", -1))
         _check(-1 <= fresh_slot < max(int(problem.n_work), 1), problem,
                f"fresh_slot {fresh_slot} lies outside the work array (length {problem.n_work}; -1 for none)", who=who)
+        # the module's explicit_stages is written out for one row layout (stage_source.py)
+        layout = getattr(mod, "_abi_explicit_layout", None)
+        expected = (tuple(int(i) for i in np.flatnonzero(mass == 0.0)), n_main, n_quad)
+        _check(layout == expected, problem,
+               f"its module's explicit stages were generated for algebraic rows, n_main, n_quad = {layout}, "
+               f"but the problem has {expected} (mass or sizes changed after the module was built)", who=who)
         self.iopt = np.array([solver.max_events_at_instant, solver.max_steps, call_start,
                               int(solver.event_stage_checks), solver.method_code, fresh_slot,
                               int(solver.one_call_stages)], dtype=np.int64)

@@ -474,7 +474,8 @@ def radau_constraint_correction(lu_a, f, y, atol, rtol, alg, n_alg, n, dz):
 
     Returns its weighted RMS norm (weights ``atol + rtol |y|``) and the row with the largest
     weighted entry. Shared by :func:`radau_make_consistent` and the module function
-    ``system_explicit_stages`` (emsim/solvers/abi.py), which must test stages alike.
+    ``system_explicit_stages`` (written out per row layout by emsim/solvers/stage_source.py), which
+    must test stages alike.
     """
     acc = 0.0
     worst = 0.0
@@ -501,7 +502,8 @@ def dopri_stage_point(i, h, y, ys, kst, err, alg, n_alg, n, lu_a, predict):
     with ``predict``, the algebraic rows moved along the stage move (J_zz dz = -J_zx dx, the
     implicit function theorem, with ``lu_a``'s J_zz^-1 J_zx), so that with linear constraints and
     a current Jacobian the point is consistent at once. ``err`` takes the move (scratch). Shared by
-    :func:`dopri_attempt` and the module function ``system_explicit_stages`` (abi.py).
+    :func:`dopri_attempt`; the module function ``system_explicit_stages`` (stage_source.py) writes the
+    same arithmetic out.
     """
     for jd in range(n_alg, n):
         j = alg[jd]

@@ -166,7 +166,8 @@ def compile_standalone(rhs, y0, *, n_main=None, mass=None, events=None, directio
                        body("record", ["t", "y", "row"], ["t", "y", *pmd, "row"]))
     source = "\n".join(lines) + "\n"
     label = name or getattr(getattr(rhs, "py_func", rhs), "__name__", "system")
-    module = load_with_callbacks(f"standalone_{label}", source, extra_key="\0".join(keys))
+    module = load_with_callbacks(f"standalone_{label}", source, extra_key="\0".join(keys), mass=mass,
+                                 n_quad=n_quad)
 
     names = list(state_names) if state_names is not None else [f"y{i}" for i in range(len(y0))]
     owner = label
