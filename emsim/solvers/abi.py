@@ -48,8 +48,9 @@ SIGNATURES = {
     # system_rhs into dy and the quadrature integrands dq at the same (t, y), in one call (the
     # explicit method's stages and consistency solves: one callback instead of two per stage)
     "rhs_quad": types.void(_f8, _A, _A, _I, _A, _A, _A, _A),
-    # stages 1..6 of one Dormand-Prince step in one call, each algebraic row predicted along the
-    # stage move and checked (see system_explicit_stages); returns the first stage it did not finish
+    # stages i_first..6 of one Dormand-Prince step in one call, each algebraic row predicted along the
+    # stage move and checked (emsim/solvers/stage_source.py); returns the first stage it did not
+    # finish, or 7
     "explicit_stages": types.int64(_f8, _f8, _f8, _A, _A, _I, _A, _A, _A2, _A2, _A, _A, _I, _A2, _A, _i8, _i8, _A),
 }
 
@@ -65,7 +66,7 @@ ARGS = {
     "jacobian": "t, y, p, m, d, w, jac",
     "stages": "ts, y, z, ys, p, m, d, w, f, fq, want_quad",
     "rhs_quad": "t, y, p, m, d, w, dy, dq",
-    "explicit_stages": "t, h, rtol, y, p, m, d, w, kst, kq, ys, err, alg, lu_a, atol, n_alg, want_quad, dz",
+    "explicit_stages": "t, h, rtol, y, p, m, d, w, kst, kq, ys, err, alg, lu_a, atol, i_first, want_quad, dz",
 }
 
 # ``system_stages`` and ``system_rhs_quad`` are the same for every module: written here once, in terms

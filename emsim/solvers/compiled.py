@@ -135,7 +135,7 @@ class Radau5(Solver):
 
     name = "radau5"
     method_code = 0   # iopt[4] of the kernel
-    #: Dormand-Prince only: stages 1..6 of a step through the module's one ``explicit_stages``
+    #: Dormand-Prince only: the stages of a step through the module's ``explicit_stages``
     #: callback (True) or one callback per stage (False: same results, kept for A/B measurements)
     one_call_stages = True
 

@@ -611,9 +611,10 @@ def dopri_attempt(jacobian_fn, rhs_fn, rhs_quad_fn, explicit_stages_fn, one_call
     is 0 or the consistency solve's failure code.
 
     ``one_call``: when the prediction can be trusted (no algebraic rows, or a current Jacobian),
-    stages 1..6 go to the module's ``explicit_stages`` callback, the same arithmetic in one call
-    instead of six (each callback call costs about half an rhs evaluation). From the first stage
-    whose constraint it could not confirm, this function goes on as before.
+    the remaining stages go to the module's ``explicit_stages`` callback, the same arithmetic in
+    one call instead of one per stage. The first stage whose constraint it could not confirm this
+    function finishes itself (the solve, and at a missed prediction a fresh Jacobian for the next
+    stage); once the Jacobian is current again the rest goes back to the callback.
     """
     n = f0.shape[0]
     n_tot = y.shape[0]
@@ -631,28 +632,33 @@ def dopri_attempt(jacobian_fn, rhs_fn, rhs_quad_fn, explicit_stages_fn, one_call
     for q in range(n_quad):
         kq[0, q] = fq0[q]
         kq[1, q] = 0.0    # stage 1 has weight 0 in the solution and the dense output: not evaluated
-    i_slow = 1    # first stage for the loop below
-    at_point = False
-    if one_call and n > 0 and (n_alg == 0 or (ti[radau_I_JAC] == 1 and ti[radau_I_LUA] == 1)):
-        i_slow = explicit_stages_fn(t, h, rtol, y, p, m, d, w, kst, kq, ys, err, alg, lu_a, atol, n_alg,
-                                    1 if n_quad > 0 else 0, dz)
-        evals = i_slow if i_slow < 7 else 6
-        stats[radau_S_RHS] += evals
-        if n_quad > 0:
-            stats[radau_S_QUAD] += evals - 1    # none at stage 1
-        at_point = True
-        if i_slow == 7:
-            # w holds the last stage, the new point (as after radau_make_consistent)
-            ti[radau_I_WMARK] = radau_w_mark(stats, ti)
-            tf[radau_F_TW] = t + radau_DP_C[6] * h
-    for i in range(i_slow, 7):
-        if not (i == i_slow and at_point):    # else explicit_stages left this stage's point in ys
+    want_quad = 1 if n_quad > 0 else 0
+    i = 1
+    at_point = False    # explicit_stages left stage i's point in ys, evaluated, off the constraint
+    while i < 7:
+        if one_call and n > 0 and not at_point and (n_alg == 0 or (ti[radau_I_JAC] == 1 and ti[radau_I_LUA] == 1)):
+            # stages i..6 in one call; at the first it cannot confirm it hands the stage back
+            i_slow = explicit_stages_fn(t, h, rtol, y, p, m, d, w, kst, kq, ys, err, alg, lu_a, atol, i,
+                                        want_quad, dz)
+            evals = i_slow - i + 1 if i_slow < 7 else 7 - i
+            stats[radau_S_RHS] += evals
+            if n_quad > 0:
+                stats[radau_S_QUAD] += evals - 1 if i == 1 else evals    # none at stage 1
+            if i_slow == 7:
+                # w holds the last stage, the new point (as after radau_make_consistent)
+                ti[radau_I_WMARK] = radau_w_mark(stats, ti)
+                tf[radau_F_TW] = t + radau_DP_C[6] * h
+                break
+            i = i_slow
+            at_point = True
+        if not at_point:
             dopri_stage_point(i, h, y, ys, kst, err, alg, n_alg, n, lu_a,
                               ti[radau_I_JAC] == 1 and ti[radau_I_LUA] == 1)
         t_i = t + radau_DP_C[i] * h
         n_jac = stats[radau_S_JAC]
         n_rhs = stats[radau_S_RHS]
-        resume = i == i_slow and at_point   # explicit_stages evaluated this point and found it off the constraint
+        resume = at_point
+        at_point = False
         st = radau_make_consistent(jacobian_fn, rhs_fn, rhs_quad_fn, n_quad > 0 and i != 1, resume, t_i, ys, p, m, d,
                                    w, n, alg,
                                    n_alg, atol, rtol, nominal, jac, lu_a, kst[i], kq[i], ftmp, dz, y_fail, tf,
@@ -671,6 +677,7 @@ def dopri_attempt(jacobian_fn, rhs_fn, rhs_quad_fn, explicit_stages_fn, one_call
                 tf[radau_F_TFAIL] = t_i
                 ti[radau_I_FAILINFO] = -1
                 return radau_STATUS_NONFINITE, radau_np.inf
+        i += 1
     acc = 0.0
     nd = n - n_alg
     for j in range(n):

@@ -1,6 +1,6 @@
 """Source of a module's ``explicit_stages`` callback, written out for its own row layout.
 
-The callback does stages 1..6 of a Dormand-Prince 5(4) step in one call (contract:
+The callback does stages ``i_first``..6 of a Dormand-Prince 5(4) step in one call (contract:
 ``SIGNATURES["explicit_stages"]`` in :mod:`emsim.solvers.abi`). The integrator's own
 per-stage path (:func:`emsim.solvers.radau_kernel.dopri_stage_point` and
 :func:`~emsim.solvers.radau_kernel.radau_constraint_correction`) does the same arithmetic in
@@ -69,12 +69,12 @@ def explicit_stages_source(mass: Sequence[float], n_quad: int, *, prefix: str = 
         "",
         "",
         f"@{jit}.njit(cache=True, error_model=\"numpy\")",
-        "def system_explicit_stages(t, h, rtol, y, p, m, d, w, kst, kq, ys, err, alg, lu_a, atol, n_alg, want_quad, dz):",
-        f"    # Dormand-Prince stages 1..6 written out for algebraic rows {alg} of {n} and {n_quad} quadrature",
-        "    # rows (emsim.solvers.stage_source). Returns 7, or the first stage i whose algebraic rows one",
-        "    # correction would still move by more than 1e-3 of the tolerance (or that is not finite): its",
-        "    # point is in ys and its evaluation in kst[i], and the integrator goes on from there.",
-        "    for i in range(1, 7):",
+        "def system_explicit_stages(t, h, rtol, y, p, m, d, w, kst, kq, ys, err, alg, lu_a, atol, i_first, want_quad, dz):",
+        f"    # Dormand-Prince stages i_first..6 written out for algebraic rows {alg} of {n} and {n_quad}",
+        "    # quadrature rows (emsim.solvers.stage_source). Returns 7, or the first stage i whose algebraic",
+        "    # rows one correction would still move by more than 1e-3 of the tolerance (or that is not",
+        "    # finite): its point is in ys and its evaluation in kst[i], and the integrator goes on from there.",
+        "    for i in range(i_first, 7):",
     ]
     for i in range(1, 7):
         out.append(f"        {'if' if i == 1 else 'elif'} i == {i}:")
