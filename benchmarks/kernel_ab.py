@@ -5,7 +5,7 @@ median of 7 wall times for 10 s simulated, the ratio new/base, and the solver st
 The base kernel is read from git (``python benchmarks/kernel_ab.py [REV]``, default HEAD)
 into a temporary module, so no copy of the kernel lives in the repository. The method is
 ``EMSIM_AB_METHOD`` (radau5, the default, or dopri5); ``EMSIM_AB_VARIANTS`` (comma-separated) and
-``EMSIM_AB_RTOLS`` choose the drives and tolerances. A base kernel from before a callback was
+``EMSIM_AB_RTOLS`` choose the drives and tolerances, ``EMSIM_AB_REPS`` the runs per kernel (7). A base kernel from before a callback was
 added to ``abi.ORDER`` (new ones are appended) is called without the callbacks it does not know.
 """
 from __future__ import annotations
@@ -47,7 +47,7 @@ base_k = _kernel_at(sys.argv[1] if len(sys.argv) > 1 and __name__ == "__main__" 
 import drive_model as dm  # noqa: E402
 import emsim_side  # noqa: E402
 
-REPS = 7
+REPS = int(os.environ.get("EMSIM_AB_REPS", "7"))
 _method = os.environ.get("EMSIM_AB_METHOD", "radau5")
 if _method not in emsim_side.SOLVERS:
     raise SystemExit(f"kernel_ab.py: EMSIM_AB_METHOD must be one of {sorted(emsim_side.SOLVERS)}, got {_method!r}")
@@ -97,8 +97,10 @@ def main(variants=None, rtols=None):
             wb, wn = rb["load_side.speed"], rn["load_side.speed"]
             diff = float(abs(wb - wn).max())
             mb, mn = statistics.median(tb), statistics.median(tn)
-            st = getattr(rn, "stats", None)
+            # the minimum too: this machine's speed drifts by up to 2x between phases, and the
+            # fastest of alternating runs is the least disturbed figure of each
             print(f"  {v} rtol {rtol:g}: base {mb*1e3:.2f} ms  new {mn*1e3:.2f} ms  ratio {mn/mb:.3f}  "
+                  f"(minima {min(tb)*1e3:.2f} / {min(tn)*1e3:.2f} ms, ratio {min(tn)/min(tb):.3f})  "
                   f"max|dw| {diff:.2e}", flush=True)
             for name, r in (("base", rb), ("new", rn)):
                 s = getattr(r, "solver_stats", None) or getattr(r, "stats", None)

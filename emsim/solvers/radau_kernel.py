@@ -150,6 +150,7 @@ radau_DP_P = radau_np.ascontiguousarray(radau_RK45.P)
 # step-size controller of Hairer's DOPRI5 (Solving ODEs I, II.4, (4.13) and the PI stabilisation of IV.2)
 radau_DP_BETA = 0.04
 radau_DP_EXPO = 0.2 - 0.75 * radau_DP_BETA
+radau_DP_LOG_FLOOR = radau_math.log(1e-4)    # the controller's memory never drops below an error of 1e-4
 
 radau_EPS = 2.220446049250313e-16
 radau_SAFE = 0.9
@@ -174,6 +175,7 @@ radau_F_TFAIL = 10     # time of a failure
 radau_F_HFAIL = 11     # step size at a failure
 radau_F_HPOST = 12     # step size the error of the last first-step-after-a-time-event asked for (0: none yet)
 radau_F_TW = 13        # time of the consistent evaluation that ti[I_WMARK] vouches for
+radau_F_LOGERR = 14    # Dormand-Prince: log of F_ERRACC (the controller's memory)
 radau_NF = 16
 
 # Persistent integer memory ``ti``.
@@ -1322,13 +1324,16 @@ def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_f
             tf[radau_F_QH] = h_s
             stats[radau_S_STEPS] += 1
             if not fixed:
-                fac11 = errn ** radau_DP_EXPO
-                facold = tf[radau_F_ERRACC] if tf[radau_F_ERRACC] > 0.0 else 1e-4
-                fac = max(0.1, min(5.0, fac11 / facold ** radau_DP_BETA / radau_SAFE))
+                # errn**EXPO / facold**BETA as one exp of logs, the last step's log kept (glibc's pow
+                # was 3 % of a drive run; log(0) = -inf gives the same 0 as 0**EXPO)
+                log_err = radau_math.log(errn)
+                log_old = tf[radau_F_LOGERR] if tf[radau_F_ERRACC] > 0.0 else radau_DP_LOG_FLOOR
+                fac = max(0.1, min(5.0, radau_math.exp(radau_DP_EXPO * log_err - radau_DP_BETA * log_old) / radau_SAFE))
                 h_new = h / fac
                 if ti[radau_I_REJ] == 1 and h_new > h:
                     h_new = h
                 tf[radau_F_ERRACC] = max(errn, 1e-4)
+                tf[radau_F_LOGERR] = max(log_err, radau_DP_LOG_FLOOR)
                 if ti[radau_I_POSTEV] == 1:
                     tf[radau_F_HPOST] = h_new
                 tf[radau_F_H] = h_new
