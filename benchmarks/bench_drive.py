@@ -21,6 +21,13 @@ worse than that baseline's error; the RATIO line for that baseline uses that
 emsim time.  REALTIME uses emsim at the tolerance that matches all the
 variable-step baselines at once.
 
+Timing side by side: each baseline runs once first (its accuracy; that run is
+not timed into the figures), then its timed runs alternate with emsim runs at
+the matched rtol (EMSIM_AROUND before the first and after each), and each
+ratio divides the two medians of those interleaved runs.  This machine's speed
+drifts by up to 2x between phases of seconds to minutes; timing emsim minutes
+after a baseline made the ratio follow the drift.
+
 ``emsim_runner`` is a callable ``(variant, rtol) -> (t, w_L)`` where
 ``variant`` is the benchmark name (a key of drive_model.VARIANTS).  If it has
 a ``compile(variant)`` method, that is timed as the compile time; otherwise
@@ -85,87 +92,115 @@ def _prefix(ref, n):
     return ref[0][:n + 1], ref[1][:n + 1]
 
 
-def _bench_baselines(variant, ref):
-    rows = []
-    for name, (fn, n, repeats, budget) in BASELINES.items():
-        times, res = hz.timed_runs(lambda: fn(variant, n), repeats=repeats,
-                                   warmup=0, budget=budget)
-        wall = hz.statistics.median(times)
-        sim = n * dm.TS
-        rows.append(dict(name=name, settings=TOL_TEXT, sim=sim, wall=wall,
-                         per_sim=wall / sim, err=hz.rel_error(res, _prefix(ref, n)),
-                         note=f"median of {len(times)}"))
-        print(f"  {name:14s} {wall:8.3f} s for {sim:g} s  "
-              f"err {rows[-1]['err']:.3e}", flush=True)
-    # the floor: first call compiles (numba's on-disk cache may make it cheap)
-    n_sub = baselines.FLOOR_SUBSTEPS[variant]
-    compile_s, _ = hz.first_call_time(lambda: baselines.rk4_floor(variant))
-    times, res = hz.timed_runs(lambda: baselines.rk4_floor(variant), repeats=7, warmup=1)
-    wall = hz.statistics.median(times)
-    note = "1 step/sample" if n_sub == 1 else (
-        f"{n_sub} substeps/sample, fewer are unstable")
-    rows.append(dict(name=FLOOR_NAME, settings=f"h={dm.TS / n_sub:g}", sim=SIM_SECONDS,
-                     wall=wall, per_sim=wall / SIM_SECONDS, err=hz.rel_error(res, ref),
-                     note=f"floor; {note}; first call {compile_s:.2f} s"))
-    print(f"  {FLOOR_NAME:14s} {wall:8.5f} s for {SIM_SECONDS:g} s  "
-          f"err {rows[-1]['err']:.3e}", flush=True)
-    return rows
+# emsim runs timed right before the first and right after every timed baseline run: this machine's
+# speed drifts by up to 2x between phases lasting seconds to minutes, and a ratio of times taken
+# minutes apart measured the drift as much as the code
+EMSIM_AROUND = 3
 
 
-def _bench_emsim(runner, variant, ref, rows):
-    """Time emsim at matched accuracy; print RATIO/FLOOR/REALTIME/COMPILE."""
-    targets = {r["name"]: r["err"] for r in rows}
-    strictest_var = min(v for k, v in targets.items() if k != FLOOR_NAME)
-    strictest_all = min(targets.values())
+def _first_runs(variant, ref):
+    """One run of every baseline (and of the floor): its accuracy, and the time of that run."""
+    firsts = {}
+    for name, (fn, n, _, _) in BASELINES.items():
+        t_run, res = hz.first_call_time(lambda: fn(variant, n))
+        firsts[name] = dict(err=hz.rel_error(res, _prefix(ref, n)), first=t_run, n=n)
+        print(f"  {name:14s} first run {t_run:8.3f} s for {n * dm.TS:g} s  err {firsts[name]['err']:.3e}",
+              flush=True)
+    # the floor: the first call compiles (numba's on-disk cache may make it cheap)
+    t_run, res = hz.first_call_time(lambda: baselines.rk4_floor(variant))
+    firsts[FLOOR_NAME] = dict(err=hz.rel_error(res, ref), first=t_run, n=dm.N_SAMPLES)
+    print(f"  {FLOOR_NAME:14s} first run {t_run:8.5f} s for {SIM_SECONDS:g} s  "
+          f"err {firsts[FLOOR_NAME]['err']:.3e}", flush=True)
+    return firsts
 
-    compile_s = None
-    if hasattr(runner, "compile"):
-        compile_s, _ = hz.first_call_time(lambda: runner.compile(variant))
 
-    # probe the ladder (one call each) until every target is met
-    probes = {}   # rtol -> error
+def _probe(runner, variant, ref, targets):
+    """emsim's error at each ladder rtol, loosest first, until every target is met."""
+    probes = {}
     first_call = None
+    strictest = min(targets.values())
     for rtol in RTOL_LADDER:
         t_call, res = hz.first_call_time(lambda: runner(variant, rtol))
         if first_call is None:
-            first_call = (rtol, t_call)
+            first_call = t_call
         probes[rtol] = hz.rel_error(res, ref)
-        if probes[rtol] <= strictest_all:
+        if probes[rtol] <= strictest:
             break
+    return probes, first_call
 
-    def matched_rtol(target):
-        for rtol in RTOL_LADDER:
-            if rtol in probes and probes[rtol] <= target:
-                return rtol, True
-        return min(probes), False   # tightest rtol tried
 
-    timed = {}    # rtol -> median wall
+def _matched_rtol(probes, target):
+    for rtol in RTOL_LADDER:
+        if rtol in probes and probes[rtol] <= target:
+            return rtol, True
+    return min(probes), False   # tightest rtol tried
 
-    def emsim_time(rtol):
-        if rtol not in timed:
-            timed[rtol], _ = hz.median_time(lambda: runner(variant, rtol),
-                                            repeats=5, warmup=0)
-        return timed[rtol]
 
-    if compile_s is None:
-        rtol0, t_first = first_call
-        compile_s = max(t_first - emsim_time(rtol0), 0.0)
+def _interleaved(base_fn, emsim_fn, repeats, budget):
+    """Baseline runs with EMSIM_AROUND emsim runs before the first and after each; (base, emsim) times."""
+    emsim_times = hz.timed_runs(emsim_fn, repeats=EMSIM_AROUND, warmup=0)[0]
+    base_times = []
+    for _ in range(max(repeats, 1)):
+        base_times += hz.timed_runs(base_fn, repeats=1, warmup=0)[0]
+        emsim_times += hz.timed_runs(emsim_fn, repeats=EMSIM_AROUND, warmup=0)[0]
+        if budget is not None and sum(base_times) >= budget:
+            break
+    return base_times, emsim_times
 
-    lines = []
-    for name, target in targets.items():
-        rtol, ok = matched_rtol(target)
-        tm = emsim_time(rtol)
-        lines.append((name, rtol, ok, tm))
-    rt_rtol, rt_ok = matched_rtol(strictest_var)
-    rt_time = emsim_time(rt_rtol)
 
-    label = runner.label(variant) if hasattr(runner, "label") else "emsim"
-    for rtol in sorted(timed, reverse=True):
-        rows.append(dict(name=label, settings=f"rtol={rtol:g}", sim=SIM_SECONDS,
-                         wall=timed[rtol], per_sim=timed[rtol] / SIM_SECONDS,
-                         err=probes[rtol], note="median of 5"))
-    return dict(lines=lines, rt=(rt_rtol, rt_ok, rt_time), compile_s=compile_s,
-                probes=probes)
+def _bench(runner, variant, ref):
+    """Baselines and emsim side by side: rows for the table and the figures for the machine lines."""
+    firsts = _first_runs(variant, ref)
+    targets = {name: f["err"] for name, f in firsts.items()}
+    strictest_var = min(v for k, v in targets.items() if k != FLOOR_NAME)
+    em = None
+    if runner is not None:
+        compile_s = None
+        if hasattr(runner, "compile"):
+            compile_s, _ = hz.first_call_time(lambda: runner.compile(variant))
+        probes, first_call = _probe(runner, variant, ref, targets)
+        em = dict(probes=probes, compile_s=compile_s, first_call=first_call, samples={}, lines=[])
+
+    rows = []
+    plans = dict(BASELINES)
+    plans[FLOOR_NAME] = (lambda v, n: baselines.rk4_floor(v), dm.N_SAMPLES, 7, None)
+    for name, (fn, n, repeats, budget) in plans.items():
+        def base_fn(fn=fn, n=n):
+            return fn(variant, n)
+        sim = n * dm.TS
+        if em is None:
+            times = hz.timed_runs(base_fn, repeats=repeats, warmup=0, budget=budget)[0]
+        else:
+            rtol, ok = _matched_rtol(em["probes"], targets[name])
+            times, e_times = _interleaved(base_fn, lambda r=rtol: runner(variant, r), repeats, budget)
+            em["samples"].setdefault(rtol, []).extend(e_times)
+            em["lines"].append((name, rtol, ok, hz.statistics.median(e_times), len(e_times)))
+        wall = hz.statistics.median(times)
+        if name == FLOOR_NAME:
+            n_sub = baselines.FLOOR_SUBSTEPS[variant]
+            note = "1 step/sample" if n_sub == 1 else f"{n_sub} substeps/sample, fewer are unstable"
+            rows.append(dict(name=name, settings=f"h={dm.TS / n_sub:g}", sim=sim, wall=wall, per_sim=wall / sim,
+                             err=targets[name], note=f"floor; {note}; median of {len(times)}; "
+                                                     f"first call {firsts[name]['first']:.2f} s"))
+        else:
+            rows.append(dict(name=name, settings=TOL_TEXT, sim=sim, wall=wall, per_sim=wall / sim,
+                             err=targets[name], note=f"median of {len(times)}"))
+        print(f"  {name:14s} {wall:8.4g} s for {sim:g} s (median of {len(times)})"
+              + ("" if em is None else f"; emsim beside it {em['lines'][-1][3] * 1e3:.2f} ms "
+                                       f"(rtol {em['lines'][-1][1]:g})"), flush=True)
+    if em is not None:
+        rt_rtol, rt_ok = _matched_rtol(em["probes"], strictest_var)
+        em["rt"] = (rt_rtol, rt_ok, hz.statistics.median(em["samples"][rt_rtol]))
+        if em["compile_s"] is None:
+            em["compile_s"] = max(em["first_call"] - min(hz.statistics.median(v) for v in em["samples"].values()), 0.0)
+        label = runner.label(variant) if hasattr(runner, "label") else "emsim"
+        for rtol in sorted(em["samples"], reverse=True):
+            times = em["samples"][rtol]
+            wall = hz.statistics.median(times)
+            rows.append(dict(name=label, settings=f"rtol={rtol:g}", sim=SIM_SECONDS, wall=wall,
+                             per_sim=wall / SIM_SECONDS, err=em["probes"][rtol],
+                             note=f"median of {len(times)}, beside the baselines"))
+    return rows, em
 
 
 def run(emsim_runner=None, benchmarks=None):
@@ -178,43 +213,41 @@ def run(emsim_runner=None, benchmarks=None):
                         f"{dm.N_SAMPLES} controller samples)")
         t_ref, w_ref, ref_est = baselines.reference(bench, verbose=True, with_estimate=True)
         ref = (t_ref, w_ref)
-        rows = _bench_baselines(bench, ref)
-        smallest = min(r["err"] for r in rows)
+        try:
+            rows, em = _bench(emsim_runner, bench, ref)
+        except Exception:  # keep going with the other benchmarks; show the failure
+            import traceback
+            traceback.print_exc()
+            print(f"benchmark {bench} failed: no figures for it")
+            continue
+        smallest = min(r["err"] for r in rows if not r["name"].startswith("emsim"))
         print(f"  reference error estimate {ref_est:.3e} vs smallest baseline error {smallest:.3e} "
               f"(ratio {ref_est / smallest:.2e}, must be < {baselines.REF_MARGIN:g})", flush=True)
         assert ref_est < baselines.REF_MARGIN * smallest, (
             f"{bench}: reference not accurate enough ({ref_est:.3e} >= {baselines.REF_MARGIN:g} x {smallest:.3e})")
-        em = None
-        if emsim_runner is not None:
-            try:
-                em = _bench_emsim(emsim_runner, bench, ref, rows)
-            except Exception:  # keep the baseline figures; show the failure
-                import traceback
-                traceback.print_exc()
-                print(f"emsim runner failed on {bench}: no RATIO lines for it")
         print()
         hz.print_table(rows, COLUMNS)
         if em is None:
             print("(no emsim runner: baseline figures only)")
         else:
-            unmatched = [n for n, _, ok, _ in em["lines"] if not ok]
+            unmatched = [n for n, _, ok, _, _ in em["lines"] if not ok]
             if unmatched:
                 print(f"WARNING: emsim did not reach the accuracy of {unmatched} "
                       f"on the ladder {RTOL_LADDER}; ratios use its tightest rtol")
-            base_err = {r["name"]: r["err"] for r in rows}
-            print("  matched accuracy (emsim at the loosest ladder rtol whose error is no worse):")
-            for name, rtol, ok, tm in em["lines"]:
-                print(f"    vs {name:14s} (error {base_err[name]:.3e}): emsim needed rtol={rtol:g} "
-                      f"(error {em['probes'][rtol]:.3e}, {tm:.4f} s){'' if ok else ', UNMATCHED'}")
+            base = {r["name"]: r for r in rows}
+            print("  matched accuracy (emsim at the loosest ladder rtol whose error is no worse), "
+                  "timed beside each baseline:")
+            for name, rtol, ok, tm, k in em["lines"]:
+                print(f"    vs {name:14s} (error {base[name]['err']:.3e}): emsim needed rtol={rtol:g} "
+                      f"(error {em['probes'][rtol]:.3e}, {tm:.4f} s, median of {k}){'' if ok else ', UNMATCHED'}")
             # all ratios are of wall s per simulated s (windows may differ)
-            for name, rtol, ok, tm in em["lines"]:
-                base = next(r for r in rows if r["name"] == name)
+            for name, rtol, ok, tm, k in em["lines"]:
                 e = tm / SIM_SECONDS
                 if name == FLOOR_NAME:
-                    machine.append(lambda b=bench, n=name, e=e, f=base["per_sim"]:
+                    machine.append(lambda b=bench, n=name, e=e, f=base[name]["per_sim"]:
                                    hz.print_floor(b, n, e, f))
                 else:
-                    machine.append(lambda b=bench, n=name, e=e, t=base["per_sim"]:
+                    machine.append(lambda b=bench, n=name, e=e, t=base[name]["per_sim"]:
                                    hz.print_ratio(b, n, t, e))
             machine.append(lambda b=bench, t=em["rt"][2]:
                            hz.print_realtime(b, SIM_SECONDS, t))
