@@ -3,15 +3,16 @@
 A solver turns a :class:`emsim.assembly.problem.Problem` into output rows and an
 event log. The contract, which every subclass of :class:`Solver` keeps:
 
-1. ``run(problem, t_end, *, out_dt, sink)`` integrates from ``problem.t0`` to
+1. ``run(problem, t_end, *, out_dt, sink, columns=None)`` integrates from ``problem.t0`` to
    ``t_end`` (inclusive) and returns a ``dict`` of integer statistics (at least
    ``steps``, ``rejected``, ``rhs_evals``, ``jacobians``, ``factorizations``,
    ``newton_iterations``, ``time_events``, ``state_events``).
 2. Output rows are taken at ``problem.t0 + k * out_dt`` for ``k = 0, 1, ...``
    up to and including ``t_end``; the first row is at ``t0``. Each row holds the
-   ``problem.n_record`` values that the generated ``system_record`` fills.
+   ``problem.n_record`` values that the generated ``system_record`` fills, or with
+   ``columns`` (a sequence of indices into them) those values in that order.
 3. ``sink.rows(t, data)`` receives rows in time order in batches: ``t`` of shape
-   ``(k,)``, ``data`` of shape ``(k, problem.n_record)``. The arrays are handed
+   ``(k,)``, ``data`` of shape ``(k, problem.n_record)`` (``(k, len(columns))``). The arrays are handed
    over: the solver never writes to them after the call, so a sink may keep
    them without copying (copying a long run's rows cost more than the
    solver's own bookkeeping).
@@ -42,7 +43,7 @@ class Solver(ABC):
     name: str = "solver"
 
     @abstractmethod
-    def run(self, problem, t_end: float, *, out_dt: float, sink) -> dict:
+    def run(self, problem, t_end: float, *, out_dt: float, sink, columns=None) -> dict:
         """Integrate ``problem`` to ``t_end`` feeding ``sink``; return statistics (contract 1-6)."""
 
     @abstractmethod

@@ -35,8 +35,9 @@ where noted)::
                       #            method: 0 Radau IIA, 1 Dormand-Prince 5(4),
                       #            index in w of the currency flag (-1 none; see abi.py),
                       #            explicit stages in one callback (1) or one per stage (0)
-        buf,          # float64[rows, n_record]    output rows, filled from ti[1]
+        buf,          # float64[rows, n_record or len(cols)]  output rows, filled from ti[1]
         buf_t,        # float64[rows]              their times
+        cols,         # int64[k]                   record columns kept in buf (empty: all of them)
         log_t, log_comp, log_kind, log_index,   # event log: time, component, kind (1 time,
                       #             2 state), state-event index (-1 for time events)
         comp_scratch, # int64[>= components]       list system_at_time writes into
@@ -182,12 +183,12 @@ class Radau5(Solver):
             "newton_tol": self.newton_tol,
         }
 
-    def start(self, problem, *, out_dt: float, out_t0: float | None = None) -> "RadauRun":
+    def start(self, problem, *, out_dt: float, out_t0: float | None = None, columns=None) -> "RadauRun":
         """Prepare an integration that :meth:`RadauRun.advance` can continue piece by piece."""
-        return RadauRun(self, problem, out_dt=out_dt, out_t0=out_t0)
+        return RadauRun(self, problem, out_dt=out_dt, out_t0=out_t0, columns=columns)
 
-    def run(self, problem, t_end: float, *, out_dt: float, sink) -> dict:
-        run = self.start(problem, out_dt=out_dt)
+    def run(self, problem, t_end: float, *, out_dt: float, sink, columns=None) -> dict:
+        run = self.start(problem, out_dt=out_dt, columns=columns)
         run.advance(t_end, sink)
         return run.stats()
 
@@ -256,6 +257,16 @@ def _check(cond, problem, msg, who="Radau5"):
         raise SolverError(f"{who}: invalid problem ({_problem_label(problem)}): {msg}")
 
 
+def _columns(columns, n_record: int, problem, who: str) -> np.ndarray:
+    """The record columns a run keeps (solver contract 2), as an int64 array; empty for all of them."""
+    if columns is None:
+        return np.zeros(0, dtype=np.int64)
+    cols = np.asarray(columns, dtype=np.int64).reshape(-1)
+    _check(cols.size > 0 and bool(np.all((cols >= 0) & (cols < n_record))), problem,
+           f"record columns must be indices in [0, {n_record}), got {cols.tolist()[:10]}", who=who)
+    return np.ascontiguousarray(cols)
+
+
 def _problem_label(problem):
     desc = getattr(problem, "description", None) or {}
     return str(desc.get("name", getattr(problem.module, "__name__", "problem")))
@@ -264,7 +275,7 @@ def _problem_label(problem):
 class RadauRun:
     """One integration of one problem; owns the kernel's persistent arrays."""
 
-    def __init__(self, solver: Radau5, problem, *, out_dt: float, out_t0: float | None = None):
+    def __init__(self, solver: Radau5, problem, *, out_dt: float, out_t0: float | None = None, columns=None):
         self.solver = solver
         self.problem = problem
         mod = problem.module
@@ -328,9 +339,10 @@ class RadauRun:
                               int(solver.event_stage_checks), solver.method_code, fresh_slot,
                               int(solver.one_call_stages)], dtype=np.int64)
         n_rec = int(problem.n_record)
+        self.cols = _columns(columns, n_rec, problem, who)
         # uninitialised: the kernel writes every row it hands out (zeroing a few MB per run was a
         # measurable part of a short run's cost)
-        self.buf = np.empty((solver.batch_rows, n_rec))
+        self.buf = np.empty((solver.batch_rows, self.cols.size or n_rec))
         self.buf_t = np.empty(solver.batch_rows)
         n_cs = max(16, len(problem.component_names) + 1)
         n_log = max(solver.event_log_size, n_ev + n_cs + 1)
@@ -353,7 +365,7 @@ class RadauRun:
         self.fq0 = np.zeros(max(n_quad, 1))
         self.y_fail = np.zeros(n_tot)
         self.stats_array = np.zeros(10, dtype=np.int64)
-        self.scratch = radau_scratch(n_main, n_tot, n_ev, self.m.shape[0])
+        self.scratch = radau_scratch(n_main, n_tot, n_ev, self.m.shape[0], n_rec)
 
     @property
     def t(self) -> float:
@@ -372,7 +384,7 @@ class RadauRun:
             self.ti[2] = 0
             status = _integrate(
                 *self.callbacks, t_end, self.y, self.p, self.m, self.d, self.w, self.mass, self.atol, self.nominal,
-                self.event_dir, self.n_main, self.opt, self.iopt, self.buf, self.buf_t,
+                self.event_dir, self.n_main, self.opt, self.iopt, self.buf, self.buf_t, self.cols,
                 self.log_t, self.log_comp, self.log_kind, self.log_index, self.comp_scratch,
                 self.tf, self.ti, self.jac, self.lu_r, self.lu_c, self.lu_a, self.piv, self.f0,
                 self.g_old, self.qd, self.fq0, self.y_fail, self.stats_array, self.scratch)

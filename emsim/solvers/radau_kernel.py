@@ -795,7 +795,18 @@ def radau_interp(tq, t_s, h_s, y_s, qd, yint):
 
 
 @radau_njit(cache=True, inline="always")
-def radau_emit_at(record_fn, t, y, p, m, d, w, out_t0, out_dt, t_lim, buf, buf_t, ti, fslot, fresh):
+def radau_record_row(record_fn, tk, y, p, m, d, w, buf, nr, cols, rowbuf):
+    """Output row ``nr`` of ``buf``: every recorded value, or with ``cols`` those columns of it."""
+    if cols.shape[0] == 0:
+        record_fn(tk, y, p, m, d, w, buf[nr])
+    else:
+        record_fn(tk, y, p, m, d, w, rowbuf)
+        for c in range(cols.shape[0]):
+            buf[nr, c] = rowbuf[cols[c]]
+
+
+@radau_njit(cache=True, inline="always")
+def radau_emit_at(record_fn, t, y, p, m, d, w, out_t0, out_dt, t_lim, buf, buf_t, cols, rowbuf, ti, fslot, fresh):
     """Rows with row time <= t_lim recorded from the current state; stops when buf is full.
 
     ``fresh``: w holds the system at this state, so the rows reuse it (flag ``w[fslot]``).
@@ -809,7 +820,7 @@ def radau_emit_at(record_fn, t, y, p, m, d, w, out_t0, out_dt, t_lim, buf, buf_t
         tk = radau_row_time(k, out_t0, out_dt)
         if tk > t_lim:
             break
-        record_fn(tk, y, p, m, d, w, buf[nr])
+        radau_record_row(record_fn, tk, y, p, m, d, w, buf, nr, cols, rowbuf)
         buf_t[nr] = tk
         nr += 1
         k += 1
@@ -820,7 +831,8 @@ def radau_emit_at(record_fn, t, y, p, m, d, w, out_t0, out_dt, t_lim, buf, buf_t
 
 
 @radau_njit(cache=True, inline="always")
-def radau_emit_interp(record_fn, t_s, h_s, y_s, qd, p, m, d, w, out_t0, out_dt, t_lim, buf, buf_t, ti, yint):
+def radau_emit_interp(record_fn, t_s, h_s, y_s, qd, p, m, d, w, out_t0, out_dt, t_lim, buf, buf_t, cols, rowbuf, ti,
+                      yint):
     """Rows with row time <= t_lim interpolated from the last step's polynomial."""
     cap = buf.shape[0]
     k = ti[radau_I_KOUT]
@@ -830,7 +842,7 @@ def radau_emit_interp(record_fn, t_s, h_s, y_s, qd, p, m, d, w, out_t0, out_dt, 
         if tk > t_lim:
             break
         radau_interp(tk, t_s, h_s, y_s, qd, yint)
-        record_fn(tk, yint, p, m, d, w, buf[nr])
+        radau_record_row(record_fn, tk, yint, p, m, d, w, buf, nr, cols, rowbuf)
         buf_t[nr] = tk
         nr += 1
         k += 1
@@ -946,7 +958,7 @@ def radau_locate(events_fn, t_s, h_s, t_new, y_s, qd, p, m, d, w, g_old, g_st, g
     return t_ev, count
 
 
-def radau_scratch(n_main, n_tot, n_events, n_modes):
+def radau_scratch(n_main, n_tot, n_events, n_modes, n_record=1):
     """The kernel's scratch arrays (a tuple, passed as the last argument of ``radau_integrate``).
 
     Allocated once by the driver, so a call that continues an integration
@@ -968,7 +980,8 @@ def radau_scratch(n_main, n_tot, n_events, n_modes):
             radau_np.zeros(n1, dtype=radau_np.int64),       # alg: algebraic row indices, then differential ones
             radau_np.zeros(3),                              # ts3: stage times
             radau_np.zeros((7, n1)),                        # kst: explicit stage derivatives
-            radau_np.zeros((7, max(n_tot - n_main, 1))))    # kq: explicit stage quadrature integrands
+            radau_np.zeros((7, max(n_tot - n_main, 1))),    # kq: explicit stage quadrature integrands
+            radau_np.zeros(max(n_record, 1)))               # rowbuf: a whole output row, when columns are chosen
 
 
 @radau_intrinsic
@@ -997,7 +1010,7 @@ def radau_borrow(typingctx, arr):
 @radau_njit(cache=True, error_model="numpy")
 def radau_integrate(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, jacobian_fn, stages_fn,
                     rhs_quad_fn, explicit_stages_fn, t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
-                    opt, iopt, buf, buf_t, log_t, log_comp, log_kind, log_index, comp_scratch,
+                    opt, iopt, buf, buf_t, cols, log_t, log_comp, log_kind, log_index, comp_scratch,
                     tf, ti, jac, lu_r, lu_c, lu_a, piv, f0, g_old, qd, fq0, y_fail, stats, scratch):
     """Integrate from ``tf[F_T]`` towards ``t_end``; return a status code.
 
@@ -1008,27 +1021,27 @@ def radau_integrate(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, st
     :func:`radau_scratch`'s tuple. Every array is passed on as a borrowed
     view (:func:`radau_borrow`): the caller keeps the arrays alive.
     """
-    zs, wts, fs, fqs, vec, small, bcs, evs, ev_hits, m_prevs, algs, ts3s, ksts, kqs = scratch
+    zs, wts, fs, fqs, vec, small, bcs, evs, ev_hits, m_prevs, algs, ts3s, ksts, kqs, rowbufs = scratch
     b = radau_borrow
     return radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, jacobian_fn,
                       stages_fn, rhs_quad_fn, explicit_stages_fn, t_end, b(y), b(p), b(m), b(d), b(w), b(mass), b(atol), b(nominal), b(event_dir), n_main,
-                      b(opt), b(iopt), b(buf), b(buf_t), b(log_t), b(log_comp), b(log_kind), b(log_index),
+                      b(opt), b(iopt), b(buf), b(buf_t), b(cols), b(log_t), b(log_comp), b(log_kind), b(log_index),
                       b(comp_scratch), b(tf), b(ti), b(jac), b(lu_r), b(lu_c), b(lu_a), b(piv), b(f0), b(g_old),
                       b(qd), b(fq0), b(y_fail), b(stats),
                       b(zs), b(wts), b(fs), b(fqs), b(vec[0]), b(vec[1]), b(vec[2]), b(vec[3]), b(vec[4]),
                       b(vec[5]), b(small[0]), b(bcs), b(small[1]), b(small[2]), b(small[3]), b(small[4]),
                       b(evs[0]), b(evs[3:5]), b(evs[1]), b(ev_hits), b(evs[2]), b(m_prevs), b(algs), b(ts3s), b(ksts), b(kqs),
-                      b(vec), b(small))
+                      b(vec), b(small), b(rowbufs))
 
 
 # without the runtime: no reference counting at all in the loop (every array is the driver's; nothing allocates)
 @radau_njit(cache=True, error_model="numpy", _nrt=False)
 def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_fn, record_fn, jacobian_fn, stages_fn,
                rhs_quad_fn, explicit_stages_fn, t_end, y, p, m, d, w, mass, atol, nominal, event_dir, n_main,
-               opt, iopt, buf, buf_t, log_t, log_comp, log_kind, log_index, comp_scratch,
+               opt, iopt, buf, buf_t, cols, log_t, log_comp, log_kind, log_index, comp_scratch,
                tf, ti, jac, lu_r, lu_c, lu_a, piv, f0, g_old, qd, fq0, y_fail, stats,
                z, wt, f, fq, ys, ynew, yold, yint, ysave, sc, br, bc, ftmp, err, zm, dz,
-               g_new, g_st, gtmp, ev_hit, ev_root, m_prev, alg, ts3, kst, kq, vec, small):
+               g_new, g_st, gtmp, ev_hit, ev_root, m_prev, alg, ts3, kst, kq, vec, small, rowbuf):
     """The step loop of :func:`radau_integrate` (all arrays borrowed views, scratch included)."""
     n = n_main
     n_tot = y.shape[0]
@@ -1101,7 +1114,7 @@ def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_f
     while True:
         snap = 64.0 * radau_EPS * max(1.0, abs(t))
         # ---- output rows due at the current instant (state after any events) ----
-        radau_emit_at(record_fn, t, y, p, m, d, w, out_t0, out_dt, t + snap, buf, buf_t, ti, fslot,
+        radau_emit_at(record_fn, t, y, p, m, d, w, out_t0, out_dt, t + snap, buf, buf_t, cols, rowbuf, ti, fslot,
                       radau_w_fresh(fslot, t, stats, ti, tf))
         if radau_row_time(ti[radau_I_KOUT], out_t0, out_dt) <= t + snap:
             tf[radau_F_T] = t
@@ -1412,7 +1425,8 @@ def radau_loop(rhs_fn, events_fn, on_event_fn, next_time_fn, at_time_fn, start_f
             t_ev, n_hit = radau_locate(events_fn, t_s, h_s, t_new, yold, qd, p, m, d, w, g_old, g_st, g_new, event_dir,
                                        tol, stage_checks, yint, gtmp, ev_hit, ev_root, stats)
         snap = 64.0 * radau_EPS * max(1.0, abs(t_ev))
-        radau_emit_interp(record_fn, t_s, h_s, yold, qd, p, m, d, w, out_t0, out_dt, t_ev - snap, buf, buf_t, ti, yint)
+        radau_emit_interp(record_fn, t_s, h_s, yold, qd, p, m, d, w, out_t0, out_dt, t_ev - snap, buf, buf_t, cols,
+                          rowbuf, ti, yint)
         if n_hit > 0 and t_ev < t_new:
             radau_interp(t_ev, t_s, h_s, yold, qd, y)
         else:

@@ -56,13 +56,14 @@ class ScipyReference(Solver):
         return {"solver": self.name, "method": "Radau IIA (scipy.integrate.Radau), algebraic rows by Newton",
                 "rtol": self.rtol, "atol_scale": self.atol_scale, "max_step": self.max_step}
 
-    def run(self, problem, t_end: float, *, out_dt: float, sink) -> dict:
-        return _Run(self, problem, float(t_end), float(out_dt), sink).go()
+    def run(self, problem, t_end: float, *, out_dt: float, sink, columns=None) -> dict:
+        return _Run(self, problem, float(t_end), float(out_dt), sink, columns).go()
 
 
 class _Run:
-    def __init__(self, opts, prob, t_end, out_dt, sink):
+    def __init__(self, opts, prob, t_end, out_dt, sink, columns=None):
         self.o, self.prob, self.t_end, self.out_dt, self.sink = opts, prob, t_end, out_dt, sink
+        self.cols = None if columns is None else np.asarray(columns, dtype=np.int64).reshape(-1)
         self.y = prob.y0.astype(float).copy()
         self.m = prob.m0.copy()
         self.d = prob.d0.copy()
@@ -154,7 +155,7 @@ class _Run:
             self.solve_algebraic(tk, y)
             self.prob.module.system_record(tk, y, self.prob.p, self.m, self.d, self.w, self.row)
             rows_t.append(tk)
-            rows.append(self.row.copy())
+            rows.append(self.row.copy() if self.cols is None else self.row[self.cols])
             self.k_out += 1
         if rows:
             self.sink.rows(np.array(rows_t), np.array(rows))
