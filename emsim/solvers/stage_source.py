@@ -53,7 +53,9 @@ def explicit_stages_source(mass: Sequence[float], n_quad: int, *, prefix: str = 
     Returns
     -------
     str
-        Python source; it uses the module's ``system_rhs`` and ``system_quad_at_rhs``.
+        Python source; it uses ``{prefix}inline_rhs`` and ``{prefix}inline_quad``, the module's
+        ``system_rhs`` and ``system_quad_at_rhs`` marked for inlining (defined before it by
+        :func:`emsim.solvers.abi.export_source`).
     """
     n = len(mass)
     alg = [i for i in range(n) if mass[i] == 0.0]
@@ -63,8 +65,7 @@ def explicit_stages_source(mass: Sequence[float], n_quad: int, *, prefix: str = 
     out = [
         f"import math as {math}",
         f"import numba as {jit}",
-        f"{rhs} = {jit}.njit(inline=\"always\", error_model=\"numpy\")(system_rhs.py_func)",
-        f"{quad} = {jit}.njit(inline=\"always\", error_model=\"numpy\")(system_quad_at_rhs.py_func)",
+        f"# {rhs} and {quad}: system_rhs and system_quad_at_rhs inlined (abi._STAGES_SOURCE defines them)",
         f"{prefix}explicit_layout = ({tuple(alg)!r}, {n}, {int(n_quad)})  # algebraic rows, n_main, n_quad",
         "",
         "",
