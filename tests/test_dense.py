@@ -29,6 +29,21 @@ def test_lu_factor_and_solve_match_lapack(n, dtype):
     assert np.all(x[n:] == 0.0)            # entries beyond n untouched
 
 
+@pytest.mark.parametrize("dtype", [np.float64, np.complex128])
+def test_pivot_rows_are_lapacks(dtype):
+    # LAPACK getrf picks the pivot of largest |a| (real) or |Re a| + |Im a| (complex, izamax's
+    # cabs1): scipy.linalg.lu_factor returns getrf's row interchanges, which must be ours
+    from scipy.linalg import lu_factor as lapack_lu_factor
+    rng = np.random.default_rng(7)
+    for n in (3, 8, 13):
+        a = rng.standard_normal((n, n))
+        if dtype is np.complex128:
+            a = a + 1j * rng.standard_normal((n, n))
+        piv = np.zeros(n, dtype=np.int64)
+        dense.lu_factor(a.copy(), piv, n)
+        np.testing.assert_array_equal(piv, lapack_lu_factor(a)[1])
+
+
 def test_lu_factor_reports_the_first_zero_pivot_column():
     a = np.array([[1.0, 2.0, 3.0], [2.0, 4.0, 6.0], [0.0, 0.0, 0.0]])   # rank 1: column 1 pivot is zero
     piv = np.zeros(3, dtype=np.int64)

@@ -17,6 +17,13 @@ from numba import njit
 
 
 @njit(cache=True, inline="always")
+def pivot_size(x):
+    """``|Re x| + |Im x|``: the size by which a pivot is chosen (LAPACK's ``cabs1``, used by
+    ``izamax`` in ``zgetrf``; E. Anderson et al., LAPACK Users' Guide). ``|x|`` for a real ``x``."""
+    return abs(x.real) + abs(x.imag)
+
+
+@njit(cache=True, inline="always")
 def lu_factor(a, piv, n):
     """LU factorisation with partial (row) pivoting of ``a[:n, :n]``, in place.
 
@@ -28,15 +35,18 @@ def lu_factor(a, piv, n):
     row swapped with row ``k`` at elimination step ``k``. Works for float64
     and complex128.
 
+    Pivots are chosen by ``|Re| + |Im|`` (:func:`pivot_size`), as LAPACK's complex routines do:
+    for a real matrix that is ``|a|``; for a complex one it spares a ``hypot`` per entry.
+
     Returns 0 on success, else ``1 + k`` for the first column ``k`` whose pivot
     is exactly zero (the factorisation still completes; solving is meaningless).
     """
     info = 0
     for k in range(n):
         p = k
-        amax = abs(a[k, k])
+        amax = pivot_size(a[k, k])
         for i in range(k + 1, n):
-            v = abs(a[i, k])
+            v = pivot_size(a[i, k])
             if v > amax:
                 amax = v
                 p = i

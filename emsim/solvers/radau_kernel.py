@@ -83,7 +83,7 @@ from emsim.solvers import dense as radau_dense
 # numba's on-disk cache of this kernel is keyed on THIS file's text only, yet the kernel has dense.py's
 # helpers inlined: the digest of dense.py written here makes every change there change this file too
 # (tests/test_dense.py fails until it is updated), so no stale kernel survives an edit or an upgrade
-radau_DENSE_SHA256 = "6fd74ab615ffbc287d340f8e9848513eb846f037f67e620cd72afec05b1a572c"
+radau_DENSE_SHA256 = "3d901333e3c1d79368325a466363c13852292999e08f9f2a6208203bcc2c7fc0"
 
 
 def radau_coefficients():
