@@ -7,6 +7,9 @@ into a temporary module, so no copy of the kernel lives in the repository. The m
 ``EMSIM_AB_METHOD`` (radau5, the default, or dopri5); ``EMSIM_AB_VARIANTS`` (comma-separated) and
 ``EMSIM_AB_RTOLS`` choose the drives and tolerances, ``EMSIM_AB_REPS`` the runs per kernel (7). A base kernel from before a callback was
 added to ``abi.ORDER`` (new ones are appended) is called without the callbacks it does not know.
+It cannot compare across a change of an argument's meaning: ``explicit_stages``'s ``i_first``
+(d2ac496) and the kernel's ``cols`` argument (b06f69c); compare whole trees in alternating
+processes instead.
 """
 from __future__ import annotations
 
