@@ -74,7 +74,10 @@ def test_a_record_entry_must_be_a_name(problem):
         emsim.simulate(problem, T_END, out_dt=DT, record=["load.shaft.speed", 3])
 
 
-def test_the_compiled_driver_refuses_columns_outside_the_row(problem):
+@pytest.mark.parametrize("solver", [Radau5(), ScipyReference()], ids=["compiled", "reference"])
+@pytest.mark.parametrize("bad", [[0, "n"], []], ids=["outside", "empty"])
+def test_solvers_refuse_columns_outside_the_row(problem, solver, bad):
     from emsim.results.memory import MemoryRecorder
+    cols = [problem.n_record if c == "n" else c for c in bad]
     with pytest.raises(SolverError, match=r"record columns must be indices in \[0, "):
-        Radau5().run(problem, T_END, out_dt=DT, sink=MemoryRecorder(), columns=[0, problem.n_record])
+        solver.run(problem, T_END, out_dt=DT, sink=MemoryRecorder(), columns=cols)

@@ -36,6 +36,10 @@ from __future__ import annotations
 
 from abc import ABC, abstractmethod
 
+import numpy as np
+
+from ..errors import SolverError
+
 
 class Solver(ABC):
     """Abstract base of the time integrators; see the module docstring for the contract."""
@@ -49,3 +53,19 @@ class Solver(ABC):
     @abstractmethod
     def settings(self) -> dict:
         """The solver options as a plain dict (contract 7)."""
+
+
+def record_columns(columns, n_record: int, who: str) -> np.ndarray | None:
+    """``columns`` of contract item 2 checked and as an int64 array (None: every recorded value).
+
+    Raises
+    ------
+    SolverError
+        An empty selection, or an index outside ``[0, n_record)``.
+    """
+    if columns is None:
+        return None
+    cols = np.ascontiguousarray(np.asarray(columns, dtype=np.int64).reshape(-1))
+    if not (cols.size > 0 and bool(np.all((cols >= 0) & (cols < n_record)))):
+        raise SolverError(f"{who}: record columns must be indices in [0, {n_record}), got {cols.tolist()[:10]}")
+    return cols

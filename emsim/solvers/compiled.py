@@ -89,7 +89,7 @@ import numpy as np
 from ..assembly.diagnose import nonfinite_culprit
 from ..errors import SolverError
 from . import abi
-from .base import Solver
+from .base import Solver, record_columns
 from .radau_kernel import radau_integrate, radau_scratch
 
 STATUS_TEXT = {
@@ -257,16 +257,6 @@ def _check(cond, problem, msg, who="Radau5"):
         raise SolverError(f"{who}: invalid problem ({_problem_label(problem)}): {msg}")
 
 
-def _columns(columns, n_record: int, problem, who: str) -> np.ndarray:
-    """The record columns a run keeps (solver contract 2), as an int64 array; empty for all of them."""
-    if columns is None:
-        return np.zeros(0, dtype=np.int64)
-    cols = np.asarray(columns, dtype=np.int64).reshape(-1)
-    _check(cols.size > 0 and bool(np.all((cols >= 0) & (cols < n_record))), problem,
-           f"record columns must be indices in [0, {n_record}), got {cols.tolist()[:10]}", who=who)
-    return np.ascontiguousarray(cols)
-
-
 def _problem_label(problem):
     desc = getattr(problem, "description", None) or {}
     return str(desc.get("name", getattr(problem.module, "__name__", "problem")))
@@ -339,7 +329,8 @@ class RadauRun:
                               int(solver.event_stage_checks), solver.method_code, fresh_slot,
                               int(solver.one_call_stages)], dtype=np.int64)
         n_rec = int(problem.n_record)
-        self.cols = _columns(columns, n_rec, problem, who)
+        cols = record_columns(columns, n_rec, f"{who} ({_problem_label(problem)})")
+        self.cols = np.zeros(0, dtype=np.int64) if cols is None else cols   # empty: every value
         # uninitialised: the kernel writes every row it hands out (zeroing a few MB per run was a
         # measurable part of a short run's cost)
         self.buf = np.empty((solver.batch_rows, self.cols.size or n_rec))

@@ -25,7 +25,7 @@ from scipy.optimize import brentq
 
 from ..assembly.diagnose import nonfinite_culprit
 from ..errors import SolverError
-from .base import Solver
+from .base import Solver, record_columns
 
 KIND_TIME, KIND_STATE = 1, 2
 
@@ -63,7 +63,7 @@ class ScipyReference(Solver):
 class _Run:
     def __init__(self, opts, prob, t_end, out_dt, sink, columns=None):
         self.o, self.prob, self.t_end, self.out_dt, self.sink = opts, prob, t_end, out_dt, sink
-        self.cols = None if columns is None else np.asarray(columns, dtype=np.int64).reshape(-1)
+        self.cols = record_columns(columns, prob.n_record, opts.name)
         self.y = prob.y0.astype(float).copy()
         self.m = prob.m0.copy()
         self.d = prob.d0.copy()
